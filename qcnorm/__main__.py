@@ -1,0 +1,5 @@
+"""``python -m qcnorm``: the command-line interface."""
+
+from .cli import main
+
+raise SystemExit(main())

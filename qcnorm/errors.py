@@ -1,0 +1,70 @@
+"""One exception tree and one warning tree for qcnorm.
+
+Every problem a user can cause is a :class:`QcnormError` (a ``ValueError``) whose
+message says what is wrong, where (rows, column, parameter) and what to do next.
+The app and the CLI catch this one base and show the message; anything else that
+escapes is a bug in qcnorm.
+
+::
+
+    ValueError
+     └── QcnormError                 base of every user-facing error
+          ├── DataError              the numbers themselves (too few, non-finite, constant)
+          │    └── DomainError       values outside a transform's domain (e.g. <= 0 for log)
+          ├── NotFittedError         a transform used before fit()
+          ├── ReadError              a file or pasted text that cannot be read as measurements
+          ├── ConfigError            an option with an unknown or inconsistent value
+          └── StoreError             the history database cannot be read or written
+
+    UserWarning
+     └── QcnormWarning               soft problems (small n, coarse resolution, approximate p)
+
+Soft problems are normally carried as plain-words strings in the ``warnings`` field of
+result objects rather than raised; :class:`QcnormWarning` exists so that library users
+who call lower-level functions can filter them with one ``warnings.filterwarnings``.
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "QcnormError",
+    "DataError",
+    "DomainError",
+    "NotFittedError",
+    "ReadError",
+    "ConfigError",
+    "StoreError",
+    "QcnormWarning",
+]
+
+
+class QcnormError(ValueError):
+    """Base of every error a user can cause. The message is shown to the user as is."""
+
+
+class DataError(QcnormError):
+    """The measurement values cannot support the requested computation."""
+
+
+class DomainError(DataError):
+    """Values fall outside the domain of a transform or distribution."""
+
+
+class NotFittedError(QcnormError):
+    """A transform or model was used before ``fit`` was called."""
+
+
+class ReadError(QcnormError):
+    """A file, byte string or pasted text could not be read as measurements."""
+
+
+class ConfigError(QcnormError):
+    """An option has an unknown or inconsistent value."""
+
+
+class StoreError(QcnormError):
+    """The history database could not be read or written."""
+
+
+class QcnormWarning(UserWarning):
+    """Base of every warning qcnorm emits."""

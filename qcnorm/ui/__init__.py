@@ -1,0 +1,1 @@
+"""The Streamlit user interface: the only package that imports streamlit."""
