@@ -1,7 +1,195 @@
-"""Command-line interface (filled in by the analysis work)."""
+"""Command-line interface: ``python -m qcnorm analyze FILE ...`` (and ``batch``).
+
+Exit codes (stable contract): 0 ok, 2 bad input (one clear message on stderr, no
+traceback), 1 internal error (a short message; set QCNORM_DEBUG=1 for the traceback).
+"""
 
 from __future__ import annotations
 
+import argparse
+import json
+import os
+import sys
+import traceback
+from collections.abc import Sequence
+from typing import Any
 
-def main(argv: list[str] | None = None) -> int:
-    return 0
+from . import __version__
+from .errors import QcnormError
+
+EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
+
+CAUTION = (
+    "Decision support only: release follows the site's quality system, customer requirements "
+    "and applicable regulations, and is made by an authorised person."
+)
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors as bad input (exit 2) in one line."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        self.print_usage(sys.stderr)
+        sys.stderr.write(f"qcnorm: error: {message}\n")
+        raise SystemExit(EXIT_BAD_INPUT)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = _Parser(prog="qcnorm", description="Transforms, control limits and capability for non-normal QC data.")
+    p.add_argument("--version", action="version", version=f"qcnorm {__version__}")
+    sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    a = sub.add_parser("analyze", help="analyse one characteristic of a measurement file")
+    a.add_argument("file", help="CSV/TSV/XLSX file, or - for text on standard input")
+    a.add_argument("--column", help="value column (name or 0-based index); in a long file the value column")
+    a.add_argument("--characteristic", help="characteristic to pick in a long file")
+    a.add_argument("--subgroup", help="column holding subgroup labels")
+    a.add_argument("--sheet", help="XLSX sheet name")
+    a.add_argument("--lsl", type=float)
+    a.add_argument("--usl", type=float)
+    a.add_argument("--target", type=float)
+    a.add_argument("--required-index", type=float, default=1.33)
+    a.add_argument("--transform", default="auto", choices=["auto", "none", "log", "boxcox", "yeojohnson", "johnson"])
+    a.add_argument("--chart", default="auto", choices=["auto", "individuals", "xbar_r", "xbar_s"])
+    a.add_argument("--rules", default="western_electric", choices=["western_electric", "nelson"])
+    a.add_argument("--include-censored", action="store_true",
+                   help="use '<0.05'-style values at their limit instead of excluding them")
+    a.add_argument("--json", action="store_true", help="print the analysis as JSON")
+    a.add_argument("--pdf", metavar="OUT.pdf", help="also write the PDF summary")
+    return p
+
+
+def _read(args: argparse.Namespace):
+    from .data import read_measurements
+
+    source: Any = args.file
+    if args.file == "-":
+        source = sys.stdin.read()
+        if "\n" not in source and "\t" not in source:
+            source += "\n"
+    elif not os.path.exists(args.file):
+        raise QcnormError(f"File not found: {args.file}. Check the path and try again.")
+    return read_measurements(
+        source, column=args.column, subgroup=args.subgroup, characteristic=args.characteristic,
+        sheet=args.sheet, include_censored=args.include_censored,
+    )
+
+
+def _fmt(v: Any, digits: int = 4) -> str:
+    if v is None:
+        return "—"
+    if isinstance(v, float):
+        return f"{v:.{digits}g}"
+    return str(v)
+
+
+def text_summary(d: dict[str, Any]) -> str:
+    """A readable summary of an Analysis dict (the JSON contract)."""
+    lines: list[str] = []
+    name = d.get("characteristic") or "values"
+    units = f" [{d['units']}]" if d.get("units") else ""
+    lines.append(f"qcnorm {d.get('qcnorm_version')} — {name}{units}, n = {d['n']}")
+    t = d["transform"]
+    lines.append(f"Transform: {t['name']} {json.dumps(t['params'])}")
+    lines.append(f"  why: {t['reason']}")
+    nr, nt = d["normality"]["raw"], d["normality"]["transformed"]
+    lines.append(
+        f"Normality (Anderson–Darling p): before {_fmt(nr['ad_p_value'])}, after {_fmt(nt['ad_p_value'])}; "
+        f"skewness before {_fmt(nr['skewness'], 3)}, after {_fmt(nt['skewness'], 3)}"
+    )
+    c = d["control"]
+    u = c["units"]
+    lines.append(
+        f"Control chart ({c['chart']}, phase {c['phase']}): center {_fmt(u['center'])}, "
+        f"LCL {_fmt(u['lcl'])}, UCL {_fmt(u['ucl'])}{units}"
+    )
+    for note in (u.get("lcl_note"), u.get("ucl_note")):
+        if note:
+            lines.append(f"  {note}")
+    if c["violations"]:
+        lines.append(f"  {len(c['violations'])} rule violation(s):")
+        for v in c["violations"][:20]:
+            lines.append(f"   - point {v['index'] + 1}: {v['rule']} {v.get('description', '')}")
+        if len(c["violations"]) > 20:
+            lines.append(f"   … and {len(c['violations']) - 20} more (see --json)")
+    else:
+        lines.append("  no rule violations: in statistical control")
+    cap = d["capability"]
+    if cap.get("verdict") != "not_assessed" and (cap.get("lsl") is not None or cap.get("usl") is not None):
+        def ci(k: str) -> str:
+            iv = cap.get(k)
+            return "" if not iv else f" ({_fmt(iv.get('low'), 3)} to {_fmt(iv.get('high'), 3)})"
+        lines.append(
+            f"Capability: Cp {_fmt(cap.get('cp'), 3)}{ci('cp_ci')}, Cpk {_fmt(cap.get('cpk'), 3)}{ci('cpk_ci')}, "
+            f"Pp {_fmt(cap.get('pp'), 3)}{ci('pp_ci')}, Ppk {_fmt(cap.get('ppk'), 3)}{ci('ppk_ci')}, "
+            f"Cpm {_fmt(cap.get('cpm'), 3)}"
+        )
+        lines.append(
+            f"  expected ppm within {_fmt(cap.get('ppm_within'), 3)}, overall {_fmt(cap.get('ppm_overall'), 3)}; "
+            f"observed {_fmt(cap.get('ppm_observed'), 3)}"
+        )
+        p = cap.get("percentile") or {}
+        if p.get("distribution"):
+            lines.append(
+                f"  percentile method ({p['distribution']}): Pp {_fmt(p.get('pp'), 3)}, Ppk {_fmt(p.get('ppk'), 3)}"
+            )
+        lines.append(f"  verdict: {cap.get('verdict_text') or cap.get('verdict')}")
+    else:
+        lines.append("Capability: not assessed (no spec limits given; use --lsl/--usl)")
+    if d.get("excluded"):
+        lines.append(f"Excluded: {len(d['excluded'])} row(s)")
+        for e in d["excluded"][:10]:
+            lines.append(f"  - row {e.get('row')}: {e.get('reason')}")
+    for w in d.get("warnings", []):
+        lines.append(f"! {w}")
+    lines.append(CAUTION)
+    return "\n".join(lines)
+
+
+def _cmd_analyze(args: argparse.Namespace) -> int:
+    from .analysis import analyze
+
+    m = _read(args)
+    res = analyze(
+        m, lsl=args.lsl, usl=args.usl, target=args.target, transform=args.transform,
+        chart=args.chart, rules=args.rules, required_index=args.required_index,
+    )
+    d = res.to_dict()
+    if args.pdf:
+        from .report import write_pdf
+
+        write_pdf(res, args.pdf)
+    if args.json:
+        sys.stdout.write(json.dumps(d, indent=2, allow_nan=False) + "\n")
+    else:
+        sys.stdout.write(text_summary(d) + "\n")
+        if args.pdf:
+            sys.stdout.write(f"PDF summary written to {args.pdf}\n")
+    return EXIT_OK
+
+
+COMMANDS = {"analyze": _cmd_analyze}
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # --help/--version (0) or usage error (2)
+        return int(exc.code or 0)
+    try:
+        return COMMANDS[args.command](args)
+    except QcnormError as exc:
+        sys.stderr.write(f"qcnorm: {exc}\n")
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        sys.stderr.write("qcnorm: interrupted\n")
+        return EXIT_INTERNAL
+    except Exception as exc:  # noqa: BLE001 - the contract: exit 1, no traceback unless asked
+        if os.environ.get("QCNORM_DEBUG"):
+            traceback.print_exc()
+        sys.stderr.write(
+            f"qcnorm: internal error ({type(exc).__name__}: {exc}). This is a bug in qcnorm; "
+            "please report it with the file. Set QCNORM_DEBUG=1 to see the details.\n"
+        )
+        return EXIT_INTERNAL

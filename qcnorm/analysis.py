@@ -1,0 +1,446 @@
+"""analyze(): the whole job for one characteristic.
+
+Data flows one way: values (or a :class:`qcnorm.data.Measurements`) -> transform
+selection -> normality before/after -> control chart on the transformed scale ->
+limits in measurement units -> capability (transform route) and the percentile
+cross-check (distribution route) -> one frozen :class:`Analysis`.
+
+The Analysis holds every number the app, the CLI, the PDF and the history store show;
+none of them computes a statistic of its own.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any, ClassVar
+
+import numpy as np
+
+from . import __version__
+from ._results import Result, to_jsonable
+from ._validation import check_choice, check_optional_float, check_sample
+from .capability import Capability, capability
+from .control import ChartBaseline, ControlChart, UnitsLimits, control_chart, limits_in_units
+from .distributions import DistributionRanking, fit_distributions, percentile_capability
+from .errors import ConfigError, DataError, QcnormError
+from .normality import NormalityReport, normality_report
+from .selection import TransformChoice, choose_transform
+from .transforms import Transform, transform_from_params
+
+__all__ = ["analyze", "Analysis", "Baseline", "Settings", "TRANSFORM_CHOICES", "CHART_CHOICES", "RULE_CHOICES"]
+
+TRANSFORM_CHOICES = ("auto", "none", "log", "boxcox", "yeojohnson", "johnson")
+CHART_CHOICES = ("auto", "individuals", "xbar_r", "xbar_s")
+RULE_CHOICES = ("western_electric", "nelson")
+SMALL_N = 30  # below this, capability intervals are wide (common practice: ≥ 30, better ≥ 100)
+
+
+@dataclass(frozen=True, slots=True)
+class Baseline(Result):
+    """A frozen Phase I result: the transform with its fitted parameters and the chart's
+    center and within-subgroup sigma, applied to new data without refitting (Phase II)."""
+
+    transform_name: str
+    transform_params: dict
+    chart: ChartBaseline
+    characteristic: str | None = None
+    n: int = 0
+    note: str = ""
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> "Baseline":
+        try:
+            return cls(
+                transform_name=str(d["transform_name"]),
+                transform_params=dict(d["transform_params"]),
+                chart=ChartBaseline.from_dict(d["chart"]),
+                characteristic=d.get("characteristic"),
+                n=int(d.get("n") or 0),
+                note=str(d.get("note") or ""),
+            )
+        except (KeyError, TypeError, ValueError) as exc:
+            raise ConfigError(
+                f"The stored baseline cannot be read ({exc}). Freeze a new baseline from a stable period."
+            ) from None
+
+    def make_transform(self) -> Transform:
+        return transform_from_params(self.transform_name, self.transform_params)
+
+
+@dataclass(frozen=True, slots=True)
+class Settings(Result):
+    """The options an Analysis was computed with (enough to reproduce it)."""
+
+    lsl: float | None
+    usl: float | None
+    target: float | None
+    transform: str
+    chart: str
+    rules: str
+    required_index: float
+    exclude: tuple
+    baseline: Baseline | None
+    round_lambda: bool
+    confidence: float
+
+
+@dataclass(frozen=True, slots=True)
+class Analysis(Result):
+    """Everything qcnorm knows about one characteristic's data.
+
+    ``to_dict()`` gives the JSON contract of the CLI (see DEVELOPERS.md); fields are
+    only ever added to it, never renamed.
+    """
+
+    n: int
+    values: np.ndarray
+    transformed: np.ndarray
+    subgroups: np.ndarray | None
+    rows: np.ndarray
+    settings: Settings
+    transform_choice: TransformChoice | None
+    transform: Transform
+    transform_reason: str
+    normality_raw: NormalityReport
+    normality_transformed: NormalityReport
+    chart: ControlChart
+    limits_units: UnitsLimits
+    capability: Capability | None
+    distributions: DistributionRanking | None
+    percentile: Any
+    excluded: tuple
+    warnings: tuple[str, ...]
+    characteristic: str | None = None
+    units: str | None = None
+    version: str = __version__
+    phase: str = "I"
+
+    _skip_in_dict: ClassVar[tuple[str, ...]] = ("values", "transformed", "subgroups", "rows", "transform")
+
+    @property
+    def in_control(self) -> bool:
+        return bool(self.chart.in_control)
+
+    def to_baseline(self, note: str = "") -> Baseline:
+        """Freeze this (Phase I) analysis as a baseline for later shifts."""
+        return Baseline(
+            transform_name=self.transform.name,
+            transform_params=dict(self.transform.params_),
+            chart=self.chart.to_baseline(),
+            characteristic=self.characteristic,
+            n=self.n,
+            note=note,
+        )
+
+    def to_dict(self) -> dict[str, Any]:  # the CLI / store contract
+        ch, lu = self.chart, self.limits_units
+        typical = _typical_index(ch)
+        disp = ch.dispersion
+        cap = self.capability
+        cap_d: dict[str, Any] = {
+            "lsl": self.settings.lsl, "usl": self.settings.usl, "target": self.settings.target,
+        }
+        if cap is not None:
+            c = cap.to_dict()
+            cap_d.update(c)
+        else:
+            for k in ("cp", "cpk", "pp", "ppk", "cpm", "cp_ci", "cpk_ci", "pp_ci", "ppk_ci",
+                      "ppm_within", "ppm_overall", "ppm_observed"):
+                cap_d[k] = None
+            cap_d["verdict"] = "not_assessed"
+        perc = self.percentile
+        cap_d["percentile"] = (
+            {"distribution": None, "pp": None, "ppk": None} if perc is None else to_jsonable(perc)
+        )
+        tc = self.transform_choice
+        out: dict[str, Any] = {
+            "qcnorm_version": self.version,
+            "characteristic": self.characteristic,
+            "units": self.units,
+            "phase": self.phase,
+            "n": self.n,
+            "excluded": [to_jsonable(e) for e in self.excluded],
+            "warnings": list(self.warnings),
+            "settings": self.settings.to_dict(),
+            "transform": {
+                "name": self.transform.name,
+                "params": to_jsonable(self.transform.params_),
+                "reason": self.transform_reason,
+                "description": self.transform.describe(),
+                "candidates": [] if tc is None else [to_jsonable(c) for c in tc.candidates],
+                "spread_level": None if tc is None else to_jsonable(tc.spread_level),
+            },
+            "normality": {
+                "raw": self.normality_raw.to_dict(),
+                "transformed": self.normality_transformed.to_dict(),
+            },
+            "control": {
+                "chart": ch.chart,
+                "phase": ch.phase,
+                "rules": ch.rules,
+                "in_control": bool(ch.in_control),
+                "transformed": {
+                    "center": to_jsonable(ch.center),
+                    "ucl": to_jsonable(ch.ucl[typical]),
+                    "lcl": to_jsonable(ch.lcl[typical]),
+                    "sigma_within": to_jsonable(ch.sigma_within),
+                    "sigma_overall": to_jsonable(ch.sigma_overall),
+                },
+                "units": {
+                    "center": to_jsonable(lu.center),
+                    "ucl": to_jsonable(_at(lu.ucl, typical)),
+                    "lcl": to_jsonable(_at(lu.lcl, typical)),
+                    "ucl_note": lu.ucl_note,
+                    "lcl_note": lu.lcl_note,
+                },
+                "dispersion": {
+                    "statistic": disp.statistic,
+                    "center": to_jsonable(_at(disp.center, typical)),
+                    "ucl": to_jsonable(_at(disp.ucl, typical)),
+                    "lcl": to_jsonable(_at(disp.lcl, typical)),
+                },
+                "violations": [
+                    {"rule": v.rule, "index": int(v.index), "description": v.description,
+                     "points": [int(p) for p in v.points]}
+                    for v in ch.violations
+                ],
+                "n_points": int(len(ch.points)),
+                "excluded_points": [to_jsonable(e) for e in ch.excluded],
+            },
+            "capability": cap_d,
+            "distributions": None if self.distributions is None else self.distributions.to_dict(),
+        }
+        return out
+
+
+def _at(v: Any, i: int) -> Any:
+    arr = np.asarray(v, dtype=float)
+    return float(arr) if arr.ndim == 0 else float(arr[i])
+
+
+def _typical_index(ch: ControlChart) -> int:
+    """Index of a point whose subgroup size is the most common one (limits shown as one number)."""
+    sizes = np.asarray(ch.sizes)
+    if sizes.size == 0:
+        return 0
+    vals, counts = np.unique(sizes, return_counts=True)
+    common = vals[np.argmax(counts)]
+    return int(np.flatnonzero(sizes == common)[0])
+
+
+def _normalise_exclude(exclude: Any) -> tuple[tuple[int, str], ...]:
+    if exclude is None:
+        return ()
+    if isinstance(exclude, Mapping):
+        items = list(exclude.items())
+    else:
+        items = []
+        for e in exclude:
+            if isinstance(e, (tuple, list)) and len(e) == 2:
+                items.append((e[0], e[1]))
+            else:
+                items.append((e, "assignable cause"))
+    out = []
+    for idx, reason in items:
+        try:
+            i = int(idx)
+        except (TypeError, ValueError):
+            raise ConfigError(f"Excluded point {idx!r} is not a point number.") from None
+        out.append((i, str(reason or "assignable cause")))
+    return tuple(out)
+
+
+def analyze(
+    values: Any,
+    *,
+    lsl: float | None = None,
+    usl: float | None = None,
+    target: float | None = None,
+    subgroups: Sequence | None = None,
+    transform: str = "auto",
+    chart: str = "auto",
+    rules: str = "western_electric",
+    exclude: Iterable | Mapping = (),
+    baseline: Baseline | Mapping | None = None,
+    required_index: float = 1.33,
+    round_lambda: bool = True,
+    confidence: float = 0.95,
+    rows: Sequence[int] | None = None,
+    characteristic: str | None = None,
+    units: str | None = None,
+) -> Analysis:
+    """Analyse one characteristic: transform, normality, control limits, capability.
+
+    Parameters
+    ----------
+    values : array-like or qcnorm.data.Measurements
+        Measurements in time order. A Measurements object brings its subgroups, row
+        numbers, units and the rows excluded at reading.
+    lsl, usl, target : float, optional
+        Specification limits and target in measurement units; either limit may be None.
+    subgroups : sequence, optional
+        A subgroup label per value (rational subgroups); None means individuals.
+    transform : {"auto", "none", "log", "boxcox", "yeojohnson", "johnson"}
+    chart : {"auto", "individuals", "xbar_r", "xbar_s"}
+    rules : {"western_electric", "nelson"}
+    exclude : iterable of int or (int, reason), or mapping {index: reason}
+        Chart points (observation index for individuals, subgroup index otherwise)
+        excluded from the estimates as assignable causes (Phase I).
+    baseline : Baseline or its dict, optional
+        Chart against a frozen baseline (Phase II): its transform is not refitted and
+        its center and sigma are used for the limits.
+    required_index : float
+        The capability index the verdict is judged against (default 1.33).
+
+    Returns
+    -------
+    Analysis
+    """
+    func = "analyze"
+    ingest_excluded: tuple = ()
+    ingest_warnings: tuple[str, ...] = ()
+    if hasattr(values, "values") and hasattr(values, "report") and not isinstance(values, np.ndarray):
+        m = values
+        if subgroups is None:
+            subgroups = m.subgroups
+        if rows is None:
+            rows = m.rows
+        characteristic = characteristic or getattr(m, "characteristic", None) or getattr(m, "column", None)
+        units = units or getattr(m, "units", None)
+        ingest_excluded = tuple(
+            {"row": int(e.row), "reason": str(e.reason)} for e in m.report.excluded
+        )
+        ingest_warnings = tuple(m.report.warnings)
+        values = m.values
+
+    x = check_sample(values, "values", func, min_n=3)
+    n = x.size
+    lsl = check_optional_float(lsl, "lsl", func)
+    usl = check_optional_float(usl, "usl", func)
+    target = check_optional_float(target, "target", func)
+    required_index = check_optional_float(required_index, "required_index", func)
+    if required_index is None or required_index <= 0:
+        raise ConfigError("The required capability index must be a positive number such as 1.33.")
+    if lsl is not None and usl is not None and lsl >= usl:
+        raise ConfigError(f"The lower spec limit ({lsl:g}) must be below the upper spec limit ({usl:g}).")
+    check_choice(transform, TRANSFORM_CHOICES, "transform", func)
+    check_choice(chart, CHART_CHOICES, "chart", func)
+    check_choice(rules, RULE_CHOICES, "rules", func)
+    if isinstance(baseline, Mapping):
+        baseline = Baseline.from_dict(baseline)
+    if subgroups is not None:
+        subgroups = np.asarray(subgroups, dtype=object).astype(str)
+        if subgroups.size != n:
+            raise DataError(
+                f"There are {n} values but {subgroups.size} subgroup labels: each value needs one label."
+            )
+    row_numbers = np.arange(1, n + 1) if rows is None else np.asarray(rows, dtype=np.int64)
+    if row_numbers.size != n:
+        raise DataError(f"There are {n} values but {row_numbers.size} row numbers.")
+    excl = _normalise_exclude(exclude)
+
+    warnings: list[str] = list(ingest_warnings)
+
+    # 1. Transform: chosen, requested, or frozen in a baseline.
+    choice: TransformChoice | None = None
+    phase = "I"
+    if baseline is not None:
+        tr = baseline.make_transform()
+        reason = (
+            f"Frozen baseline transform ({tr.describe()}), applied without refitting "
+            "so this data is judged against the same scale as the baseline (Phase II)."
+        )
+        phase = "II"
+    else:
+        cands = "auto" if transform == "auto" else transform
+        choice = choose_transform(x, candidates=cands, subgroups=subgroups, round_lambda=round_lambda)
+        tr = choice.transform
+        reason = choice.reason
+    y = tr.transform(x)
+
+    # 2. Normality before and after.
+    norm_raw = normality_report(x)
+    norm_t = norm_raw if tr.name == "none" else normality_report(y)
+    if norm_raw.resolution.coarse:
+        warnings.append(norm_raw.resolution.message)
+    if tr.name != "none" and norm_t.ad_p_value is not None and norm_t.ad_p_value < 0.05:
+        warnings.append(
+            f"Even after the {tr.name} transform the data is not normal (Anderson–Darling p = "
+            f"{norm_t.ad_p_value:.3g}): treat limits and ppm as approximate and compare with the "
+            "percentile-method figures."
+        )
+    elif tr.name == "none" and norm_raw.ad_p_value is not None and norm_raw.ad_p_value < 0.05:
+        warnings.append(
+            f"The data is not normal (Anderson–Darling p = {norm_raw.ad_p_value:.3g}) and no transform "
+            "was applied: limits and ppm assume normality; consider transform 'auto'."
+        )
+
+    # 3. Control chart on the transformed scale, limits back in units.
+    ch = control_chart(
+        y, subgroups, chart=chart, exclude=excl, rules=rules,
+        baseline=None if baseline is None else baseline.chart,
+    )
+    lu = limits_in_units(ch, tr)
+    warnings.extend(ch.warnings)
+    if not ch.in_control:
+        k = len(ch.violations)
+        warnings.append(
+            f"The chart shows {k} signal{'s' if k != 1 else ''} of special causes: the process is not "
+            "in statistical control, so capability figures are not meaningful until the causes are "
+            "found and removed (exclude them with a reason, or stabilise the process)."
+        )
+    if n < SMALL_N:
+        warnings.append(
+            f"Only {n} values: confidence intervals are wide and the transform choice is uncertain; "
+            f"aim for at least {SMALL_N} (better 100) before judging capability."
+        )
+
+    # 4. Capability on the transformed scale (within sigma from this data, even in Phase II).
+    cap: Capability | None = None
+    perc = None
+    dists: DistributionRanking | None = None
+    if lsl is not None or usl is not None:
+        if phase == "II":
+            own = control_chart(y, subgroups, chart=ch.chart, exclude=excl, rules=rules)
+            center, sigma_w, sigma_o = own.grand_mean, own.sigma_within, own.sigma_overall
+        else:
+            center, sigma_w, sigma_o = ch.grand_mean, ch.sigma_within, ch.sigma_overall
+        cap = capability(
+            x, y, tr, lsl=lsl, usl=usl, target=target, center=center,
+            sigma_within=sigma_w, sigma_overall=sigma_o,
+            required_index=required_index, confidence=confidence, stable=bool(ch.in_control),
+        )
+        warnings.extend(n_ for n_ in cap.notes if n_ not in warnings)
+    try:
+        dists = fit_distributions(x)
+        if cap is not None and dists.best is not None:
+            perc = percentile_capability(dists.best, lsl=lsl, usl=usl)
+    except QcnormError as exc:
+        warnings.append(f"No distribution could be fitted for the percentile cross-check: {exc}")
+
+    # Exclusions: rows dropped at reading, then chart points excluded as assignable causes.
+    excluded = list(ingest_excluded)
+    for e in ch.excluded:
+        if ch.chart == "individuals":
+            row = int(row_numbers[e.index])
+        else:
+            row = None
+        excluded.append({"row": row, "point": int(e.index), "reason": e.reason})
+
+    seen: set[str] = set()
+    uniq = tuple(w for w in warnings if not (w in seen or seen.add(w)))
+    settings = Settings(
+        lsl=lsl, usl=usl, target=target, transform=transform, chart=chart, rules=rules,
+        required_index=required_index, exclude=excl, baseline=baseline,
+        round_lambda=round_lambda, confidence=confidence,
+    )
+    return Analysis(
+        n=n, values=x, transformed=y, subgroups=subgroups, rows=row_numbers, settings=settings,
+        transform_choice=choice, transform=tr, transform_reason=reason,
+        normality_raw=norm_raw, normality_transformed=norm_t, chart=ch, limits_units=lu,
+        capability=cap, distributions=dists, percentile=perc, excluded=tuple(excluded),
+        warnings=uniq, characteristic=characteristic, units=units, phase=phase,
+    )
