@@ -553,8 +553,8 @@ def _plain_reason(exc: BaseException) -> tuple[str, str]:
     low = str(orig).lower()
     if "locked" in low or "busy" in low:
         return (
-            "the database stayed locked by another writer for more than "
-            f"{_SQLITE_BUSY_TIMEOUT_S:.0f} s",
+            "the database was locked by another writer (waited up to "
+            f"{_SQLITE_BUSY_TIMEOUT_S:g} s)",
             "close other qcnorm sessions or programs using this file and try again",
         )
     if "disk is full" in low or "no space" in low or "disk full" in low:
@@ -577,6 +577,11 @@ def _plain_reason(exc: BaseException) -> tuple[str, str]:
         return (
             "the database server is not reachable",
             "check that the server is running and the host, port and database in the URL",
+        )
+    if "unique" in low or "duplicate" in low:
+        return (
+            "another user saved the same record at the same moment",
+            "try again; nothing was saved by this step",
         )
     if "password authentication failed" in low or "authentication" in low:
         return ("the database server refused the user name or password", "check the credentials in the URL")
@@ -949,7 +954,7 @@ class HistoryStore:
     def get_baseline(self, baseline_id: int) -> BaselineRecord:
         """One baseline by id; StoreError if there is none."""
         with self._reading(f"read baseline {baseline_id}") as conn:
-            row = conn.execute(self._baseline_query().where(baseline_t.c.id == int(baseline_id))).first()
+            row = conn.execute(self._baseline_query().where(baseline_t.c.id == self._id(baseline_id))).first()
         if row is None:
             raise StoreError(f"No baseline with id {baseline_id} in the history database {self.url}. Check the id.")
         return self._baseline_record(row)
@@ -1028,7 +1033,7 @@ class HistoryStore:
             b = conn.execute(
                 sa.select(characteristic_t.c.name)
                 .join(baseline_t, baseline_t.c.characteristic_id == characteristic_t.c.id)
-                .where(baseline_t.c.id == int(baseline_id))
+                .where(baseline_t.c.id == self._id(baseline_id))
             ).first()
             if b is None:
                 raise StoreError(f"No baseline with id {baseline_id} in the history database {self.url}. Check the id or freeze a baseline first.")
@@ -1038,7 +1043,7 @@ class HistoryStore:
             old = conn.execute(
                 sa.select(characteristic_t.c.name)
                 .join(analysis_t, analysis_t.c.characteristic_id == characteristic_t.c.id)
-                .where(analysis_t.c.id == int(supersedes))
+                .where(analysis_t.c.id == self._id(supersedes))
             ).first()
             if old is None:
                 raise StoreError(f"Analysis {supersedes} (to be superseded) is not in the history database {self.url}. Check the id.")
