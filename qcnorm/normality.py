@@ -13,13 +13,14 @@ approximate p-values) are carried as plain-words strings, never raised.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from scipy.special import betaincinv, log_ndtr, ndtr, ndtri
 
 from ._results import Result
 from ._validation import check_sample
-from .errors import DataError
+from .errors import ConfigError, DataError
 
 __all__ = [
     "anderson_darling_a2",
@@ -142,19 +143,30 @@ def ad_p_value(a_star: float) -> float:
     return float(min(1.0, max(0.0, p)))
 
 
-def _ad_from_sorted(xs: np.ndarray) -> ADResult:
+def _deviations(xs: np.ndarray) -> np.ndarray:
+    """x − x̄, computed once and shared by the tests in :func:`normality_report`."""
+    return xs - xs.mean()
+
+
+def _ad_from_sorted(xs: np.ndarray, dev: np.ndarray | None = None) -> ADResult:
     """Anderson–Darling on an already validated, sorted, non-constant sample."""
     n = xs.size
-    mean = xs.mean()
-    sd = xs.std(ddof=1)
-    z = (xs - mean) / sd
-    # log Φ(z) and log(1 − Φ(z)) = log Φ(−z), both accurate far into the tails.
-    a2 = anderson_darling_a2(log_ndtr(z), log_ndtr(-z))
+    d = _deviations(xs) if dev is None else dev
+    sd = np.sqrt(np.dot(d, d) / (n - 1))
+    z = d / sd
+    # log Φ(z) and log(1 − Φ(z)) = log Φ(−z), both accurate far into the tails:
+    # the smaller tail by log_ndtr(−|z|), the larger one as log1p(−exp(·)) of it
+    # (exact to rounding because that tail probability is at most 1/2).
+    small = log_ndtr(-np.abs(z))
+    large = np.log1p(-np.exp(small))
+    lower = z < 0.0
+    a2 = anderson_darling_a2(np.where(lower, small, large), np.where(lower, large, small))
     a_star = a2 * (1.0 + 0.75 / n + 2.25 / n**2)
     p = ad_p_value(a_star)
     note = ""
     if p == 0.0:
-        note = "A* is far beyond the tabled range: the p-value is effectively 0."
+        note = ("The Anderson-Darling statistic is far beyond the published table: "
+                "its p-value is effectively 0 and is reported as 0.")
     return ADResult(statistic=a2, statistic_star=a_star, p_value=p, n=n, note=note)
 
 
@@ -266,8 +278,19 @@ class ShapiroResult(Result):
     method: str = _SW_METHOD
 
 
+@lru_cache(maxsize=16)
 def _sw_coefficients(n: int) -> np.ndarray:
-    """The upper-half Shapiro–Wilk coefficients a_n, a_{n-1}, … (positive), AS R94."""
+    """The upper-half Shapiro–Wilk coefficients a_n, a_{n-1}, … (positive), AS R94.
+
+    Cached by n (read-only array): selection runs the test on many candidates of the
+    same size.
+    """
+    a = _sw_coefficients_uncached(n)
+    a.setflags(write=False)
+    return a
+
+
+def _sw_coefficients_uncached(n: int) -> np.ndarray:
     nn2 = n // 2
     if n == 3:
         return np.array([np.sqrt(0.5)])
@@ -312,11 +335,11 @@ def _sw_p_value(w: float, w1: float, n: int) -> float:
     return float(min(1.0, max(0.0, ndtr(-(y - mu) / sigma))))
 
 
-def _shapiro_from_sorted(xs: np.ndarray) -> ShapiroResult:
+def _shapiro_from_sorted(xs: np.ndarray, dev: np.ndarray | None = None) -> ShapiroResult:
     n = xs.size
     nn2 = n // 2
     a_half = _sw_coefficients(n)
-    d = xs - xs.mean()
+    d = _deviations(xs) if dev is None else dev
     # W as the squared correlation of the data with the antisymmetric coefficients
     # (Σa = 0, Σa² = 1): W = (Σ a_i x_(i))² / Σ (x − x̄)²; 1 − W kept separately.
     num = np.dot(a_half, d[::-1][:nn2] - d[:nn2])
@@ -460,9 +483,9 @@ class KurtosisResult(Result):
     note: str = ""
 
 
-def _central_moments(x: np.ndarray) -> tuple[float, float, float]:
+def _central_moments(x: np.ndarray, dev: np.ndarray | None = None) -> tuple[float, float, float]:
     """Biased central moments m2, m3, m4 (divisor n)."""
-    d = x - x.mean()
+    d = _deviations(x) if dev is None else dev
     d2 = d * d
     n = x.size
     return float(d2.sum() / n), float(np.dot(d2, d) / n), float(np.dot(d2, d2) / n)
@@ -708,7 +731,7 @@ def resolution_check(x) -> ResolutionResult:
 _BLOM = "Blom (i - 0.375)/(n + 0.25)"
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(frozen=True, slots=True, eq=False)  # array fields: compare by identity
 class ProbabilityPlot(Result):
     """Data for a normal probability plot with a pointwise confidence band.
 
@@ -806,8 +829,6 @@ def probability_plot(x, *, confidence: float = 0.95, max_points: int = 2000) -> 
     Blom, G. (1958). Statistical Estimates and Transformed Beta-Variables. Wiley.
     D'Agostino, R.B. & Stephens, M.A. (1986). Goodness-of-Fit Techniques, ch. 2.
     """
-    from .errors import ConfigError
-
     try:
         conf = float(confidence)
     except (TypeError, ValueError):
@@ -947,9 +968,10 @@ def normality_report(x) -> NormalityReport:
     """
     xs = _sorted_sample(x, "normality_report", REPORT_MIN_N)
     n = xs.size
-    ad = _ad_from_sorted(xs)
-    sw = _shapiro_from_sorted(xs)
-    m2, m3, m4 = _central_moments(xs)
+    dev = _deviations(xs)
+    ad = _ad_from_sorted(xs, dev)
+    sw = _shapiro_from_sorted(xs, dev)
+    m2, m3, m4 = _central_moments(xs, dev)
     sk = _skewness_from_moments(n, m2, m3)
     ku = _kurtosis_from_moments(n, m2, m4)
     res = _resolution_from_sorted(xs)
