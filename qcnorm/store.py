@@ -270,7 +270,13 @@ def canonical_data_encoding(values: Any, subgroups: Sequence[Any] | None = None)
 
 
 def data_sha256(values: Any, subgroups: Sequence[Any] | None = None) -> str:
-    """Hex SHA-256 of :func:`canonical_data_encoding` (FIPS 180-4 via hashlib)."""
+    """Hex SHA-256 of :func:`canonical_data_encoding`.
+
+    References
+    ----------
+    National Institute of Standards and Technology (2015). Secure Hash Standard (SHS).
+    FIPS PUB 180-4. (Computed with Python's ``hashlib``.)
+    """
     return hashlib.sha256(canonical_data_encoding(values, subgroups)).hexdigest()
 
 
