@@ -124,7 +124,7 @@ def test_exponential_ad_p_value_vs_scipy_interpolation():
             ref = stats.anderson(x, dist="expon", method="interpolate").pvalue
         if 0.015 < ref < 0.14:
             got = fit_distribution(x, "exponential").ad_p_value
-            assert got == pytest.approx(ref, abs=0.012)
+            assert got == pytest.approx(ref, abs=0.006)  # observed max 0.004
             compared += 1
     assert compared >= 20
 
