@@ -1,0 +1,26 @@
+"""qcnorm workbench: page layout and navigation only (run with `streamlit run app.py`).
+
+Pages live in qcnorm/ui/ (one module, one render() each) and are listed in
+qcnorm/ui/registry.py; shared session state is documented in qcnorm/ui/state.py.
+"""
+
+import streamlit as st
+
+from qcnorm.ui import common, registry, state
+
+st.set_page_config(page_title="qcnorm workbench", page_icon="◈", layout="wide",
+                   initial_sidebar_state="expanded")
+state.init()
+state.keep()
+common.style()
+
+with st.sidebar:
+    st.markdown("### ◈ qcnorm")
+    st.caption("Non-normal QC data: shape, stability, capability")
+    st.radio(
+        "Step", registry.page_keys(), key="qc_page",
+        format_func=lambda k: registry.page(k).title, label_visibility="collapsed",
+    )
+    common.sidebar_summary()
+
+common.run_page(registry.page(state.get("qc_page")))

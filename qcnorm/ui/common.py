@@ -1,0 +1,144 @@
+"""Pieces every page shares: the caution, the error boundary, number formatting.
+
+The error boundary is the promise that no traceback ever reaches the page: a
+:class:`~qcnorm.errors.QcnormError` is shown as its own message (it already says what
+to do next); anything else is a bug in qcnorm and is shown as a short apology with a
+request to report it. Details go to the server log, never to the page.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from collections.abc import Callable
+from typing import Any
+
+import streamlit as st
+
+from ..cli import CAUTION
+from ..errors import QcnormError
+from . import state
+
+__all__ = ["CAUTION", "caution", "style", "run_page", "guard", "show_error", "fmt", "fmt_ci",
+           "next_step", "sidebar_summary", "require_analysis"]
+
+log = logging.getLogger("qcnorm.ui")
+
+APOLOGY = (
+    "Sorry — qcnorm hit an internal problem while drawing this part of the page. "
+    "This is a fault in qcnorm, not in your data handling: please report it with the file "
+    "you loaded and the step you were on. Your other results are unaffected."
+)
+
+
+def caution() -> None:
+    """The release caution, shown on every page (words from qcnorm.cli.CAUTION)."""
+    st.caption(f"⚠ {CAUTION}")
+
+
+def style() -> None:
+    """A little CSS of our own: tighter top margin and tabular figures for metrics."""
+    st.markdown(
+        """
+        <style>
+        .block-container {padding-top: 2.2rem; max-width: 1500px;}
+        [data-testid="stMetricValue"] {font-variant-numeric: tabular-nums;}
+        </style>
+        """,
+        unsafe_allow_html=True,
+    )
+
+
+def show_error(exc: BaseException) -> None:
+    """One short message: the core's own words for user problems, an apology otherwise."""
+    if isinstance(exc, QcnormError):
+        st.error(str(exc), icon="✋")
+    else:
+        log.exception("qcnorm internal error on the page")
+        st.error(f"{APOLOGY} (internal detail: {type(exc).__name__})", icon="🛠")
+
+
+def guard(fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
+    """Call ``fn``; on any error show it kindly and return None (a section boundary)."""
+    try:
+        return fn(*args, **kwargs)
+    except Exception as exc:  # noqa: BLE001 - the page boundary: never a traceback
+        show_error(exc)
+        return None
+
+
+def run_page(spec: Any) -> None:
+    """Draw one page: title, caution, body inside the error boundary, caution again."""
+    st.title(spec.title.split("·", 1)[-1].strip())
+    if spec.help:
+        st.caption(spec.help)
+    caution()
+    if spec.needs_data and state.source() is None:
+        st.info("No measurements loaded yet. Go to **1 · Load** and choose the demo data, upload a "
+                "file or paste from a spreadsheet.")
+        next_step("load", "Go to Load")
+        return
+    guard(spec.render_function())
+
+
+def next_step(page_key: str, label: str) -> None:
+    """A button that moves to another page (the sidebar follows)."""
+    def _go() -> None:
+        st.session_state["qc_page"] = page_key
+    st.button(label, key=f"qc_next_{page_key}_{label}", on_click=_go, type="primary")
+
+
+def fmt(v: Any, digits: int = 4) -> str:
+    """A number for reading: 4 significant digits, '—' for missing, thin separators."""
+    if v is None:
+        return "—"
+    try:
+        f = float(v)
+    except (TypeError, ValueError):
+        return str(v)
+    if math.isnan(f):
+        return "—"
+    if math.isinf(f):
+        return "∞" if f > 0 else "−∞"
+    if f != 0 and (abs(f) >= 1e6 or abs(f) < 1e-4):
+        return f"{f:.{digits - 1}e}"
+    return f"{f:.{digits}g}"
+
+
+def fmt_ppm(v: Any) -> str:
+    if v is None:
+        return "—"
+    f = float(v)
+    if math.isnan(f):
+        return "—"
+    if f >= 100:
+        return f"{f:,.0f}"
+    return f"{f:.3g}"
+
+
+def fmt_ci(iv: Any, digits: int = 3) -> str:
+    """'low – high' for an Interval result, '—' when there is none."""
+    if iv is None:
+        return "—"
+    return f"{fmt(iv.low, digits)} – {fmt(iv.high, digits)}"
+
+
+def require_analysis() -> Any:
+    """The Analysis for the current choices (cached), or None after showing why not."""
+    from . import compute
+
+    return compute.current_analysis()
+
+
+def sidebar_summary() -> None:
+    """What is loaded, in two lines, under the navigation."""
+    src = state.source()
+    st.divider()
+    if src is None:
+        st.caption("Nothing loaded.")
+        return
+    what = state.get("qc_characteristic") or state.get("qc_column") or "—"
+    st.caption(f"**Data:** {src.name}  \n**Characteristic:** {what}")
+    ex = state.exclusions()
+    if ex:
+        st.caption(f"**Excluded points:** {len(ex)}")
