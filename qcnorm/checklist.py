@@ -40,6 +40,7 @@ __all__ = [
     "AD_P_MIN",
     "MIN_N",
     "CHECKLIST_KEYS",
+    "analysis_dict",
 ]
 
 #: Smallest Anderson–Darling p-value after the transform for which the transform is
@@ -84,11 +85,23 @@ class ChecklistItem(Result):
         return "n/a" if self.passed is None else ("pass" if self.passed else "fail")
 
 
-def _as_dict(analysis: Any) -> Mapping[str, Any]:
+def analysis_dict(analysis: Any) -> dict[str, Any]:
+    """``analysis.to_dict()`` (a mapping is returned as it is), completed with the
+    dispersion-chart signals under ``control.dispersion.violations`` when the dict lacks
+    them (they make the process out of control but are not in ``control.violations``)."""
     if isinstance(analysis, Mapping):
-        return analysis
+        return dict(analysis)
     if hasattr(analysis, "to_dict"):
-        return analysis.to_dict()
+        d = analysis.to_dict()
+        disp = ((d.get("control") or {}).get("dispersion"))
+        dv = getattr(getattr(getattr(analysis, "chart", None), "dispersion", None), "violations", None)
+        if isinstance(disp, dict) and "violations" not in disp and dv is not None:
+            disp["violations"] = [
+                {"rule": v.rule, "index": int(v.index), "description": v.description,
+                 "points": [int(p) for p in v.points]}
+                for v in dv
+            ]
+        return d
     from .errors import ConfigError
 
     raise ConfigError(
@@ -119,12 +132,14 @@ def _item_in_control(d: Mapping[str, Any]) -> ChecklistItem:
     )
     rules = _RULE_NAMES.get(str(c.get("rules")), str(c.get("rules") or "run"))
     rule = f"no {rules} rule violation on the control chart"
-    viol = list(c.get("violations") or [])
+    viol = list(c.get("violations") or []) + list((c.get("dispersion") or {}).get("violations") or [])
     in_control = c.get("in_control")
     if in_control is None:
         return ChecklistItem("in_control", name, None, "No control chart in this analysis.", rule)
     if in_control:
         detail = f"No rule violations among {c.get('n_points', '?')} chart points."
+    elif not viol:
+        detail = "The chart reports the process out of statistical control (see its signals)."
     else:
         kinds = sorted({str(v.get("rule")) for v in viol})
         pts = sorted({int(v.get("index", 0)) + 1 for v in viol})
@@ -231,7 +246,7 @@ def review_checklist(analysis: Any) -> tuple[ChecklistItem, ...]:
     D'Agostino, R.B. & Stephens, M.A. (1986). Goodness-of-Fit Techniques. Marcel Dekker.
     Bissell, A.F. (1990). How reliable is your capability index? Applied Statistics 39(3), 331–340.
     """
-    d = _as_dict(analysis)
+    d = analysis_dict(analysis)
     return tuple(_ITEMS[k](d) for k in CHECKLIST_KEYS)
 
 

@@ -35,7 +35,7 @@ from typing import Any
 import numpy as np
 
 from . import __version__
-from .checklist import ChecklistItem, checklist_outcome, review_checklist
+from .checklist import ChecklistItem, analysis_dict, checklist_outcome, review_checklist
 from .errors import ConfigError, QcnormError
 
 __all__ = [
@@ -328,6 +328,10 @@ def _fig_chart(view: "_View", width_mm: float) -> bytes:
         _limit_line(ax2, xd, d["center"], "center", _COL["center"], "-")
         _limit_line(ax2, xd, d["ucl"], "UCL", _COL["limit"], "--")
         _limit_line(ax2, xd, d["lcl"], "LCL", _COL["limit"], "--")
+        dsig = [i for i in d["signal_points"] if 0 <= i < xd.size]
+        if dsig:
+            ax2.plot(xd[dsig], dv[dsig], "o", markersize=5 if dense else 6, markerfacecolor="none",
+                     markeredgecolor=_COL["signal"], markeredgewidth=1.2, label="beyond limit")
         ax2.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False)
     else:
         ax2.text(0.5, 0.5, "no dispersion chart data", transform=ax2.transAxes, ha="center", va="center")
@@ -360,7 +364,7 @@ class _View:
 
     def __init__(self, analysis: Any, meta: ReportMeta) -> None:
         self.a = analysis
-        self.d: dict[str, Any] = analysis.to_dict()
+        self.d: dict[str, Any] = analysis_dict(analysis)
         d = self.d
         self.meta = meta
         self.characteristic = meta.characteristic or d.get("characteristic") or "(unnamed characteristic)"
@@ -405,6 +409,8 @@ class _View:
         stat = str(_get(disp, "statistic", default="moving_range"))
         stat_label = {"moving_range": "moving range", "range": "range", "stdev": "standard deviation"}.get(stat, stat)
         sig_pts = sorted({int(p) for v in c.get("violations") or [] for p in (v.get("points") or [v.get("index")])})
+        dviol = (c.get("dispersion") or {}).get("violations") or []
+        disp_sig = sorted({int(v.get("index", -1)) for v in dviol})
         exc_pts = sorted({int(e.get("index", e.get("point", -1))) for e in c.get("excluded_points") or []
                           if isinstance(e, Mapping)})
         rules = RULE_NAMES.get(str(c.get("rules")), str(c.get("rules") or ""))
@@ -428,6 +434,7 @@ class _View:
             "excluded_points": exc_pts,
             "dispersion": {
                 "values": _get(disp, "values"),
+                "signal_points": disp_sig,
                 "center": _get(disp, "center"),
                 "ucl": _get(disp, "ucl"),
                 "lcl": _get(disp, "lcl"),
@@ -859,7 +866,7 @@ def _sec_chart(w: _Writer, v: _View) -> None:
     for note in (u.get("lcl_note"), u.get("ucl_note")):
         if note:
             w.para(str(note), size=8.5)
-    viol = list(c.get("violations") or [])
+    viol = list(c.get("violations") or []) + list(disp.get("violations") or [])
     if viol:
         w.subheading(f"Rule violations ({len(viol)})")
         shown = viol[:150]
@@ -1049,8 +1056,13 @@ def write_pdf(analysis: Any, path: str | Path, **kw: Any) -> Path:
 
     Keyword arguments go to :func:`build_pdf` (``meta``, ``review``, ``page``).
     """
-    data = build_pdf(analysis, **kw)
     out = Path(path)
+    if not out.parent.is_dir():
+        raise ConfigError(
+            f"The PDF could not be written to {out} (the folder {out.parent} does not exist). "
+            "Create the folder or choose another path."
+        )
+    data = build_pdf(analysis, **kw)
     try:
         out.write_bytes(data)
     except OSError as exc:

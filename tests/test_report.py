@@ -1,0 +1,354 @@
+"""The PDF summary (qcnorm/report.py) and the release checklist (qcnorm/checklist.py).
+
+What is checked, and against what:
+- the text of the PDF, read back with pypdf (an independent PDF parser), holds every
+  section heading, the caution, the review decision, and the numbers of the Analysis
+  formatted with the report's one formatting helper ``fmt``;
+- the file is byte-identical for the same input (built twice);
+- poppler (pdftoppm, an independent renderer) renders every page; the PNGs are kept in
+  tests/artifacts/report/ for a person to look at;
+- poppler's pdftotext word boxes lie inside the page margins on A4 and Letter (nothing
+  runs off the page);
+- each checklist item follows its stated threshold: AD p ≥ 0.05 (common practice, 5 %
+  level), n ≥ 30 (common practice), lower confidence bound ≥ required index (the
+  capability verdict of qcnorm.capability, Bissell 1990), no run-rule violation.
+"""
+
+from __future__ import annotations
+
+import copy
+import re
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+from pypdf import PdfReader
+
+from conftest import ROOT, skip_or_fail
+from qcnorm.analysis import SMALL_N, analyze
+from qcnorm.checklist import AD_P_MIN, CHECKLIST_KEYS, MIN_N, checklist_outcome, review_checklist
+from qcnorm.data import read_measurements
+from qcnorm.errors import ConfigError, QcnormError
+from qcnorm.report import (
+    CANDIDATE_COLUMNS,
+    CAUTION_TEXT,
+    NORMALITY_ROWS,
+    PAGE_SIZES,
+    SECTION_TITLES,
+    ReportMeta,
+    build_pdf,
+    fmt,
+    write_pdf,
+)
+from qcnorm.store import data_sha256
+
+DEMO = ROOT / "demo_data"
+META = ReportMeta(plant="Works 2", line="Line 3", lot="L-1125", shift="C", operator="J. Doe",
+                  date="2026-11-25")
+REVIEW = {"decision": "hold", "reviewer": "A. Reviewer", "comment": "Find the cause of the signals first.",
+          "date": "2026-11-26"}
+
+
+# ----------------------------------------------------------------------------- fixtures
+@pytest.fixture(scope="module")
+def ra_analysis():
+    """900 Ra values of the invented line, one-sided spec USL 1.6 µm (capability assessed)."""
+    m = read_measurements(DEMO / "line3_spool_wide.csv", column="Ra")
+    return analyze(m, usl=1.6)
+
+
+@pytest.fixture(scope="module")
+def shift_analysis():
+    """30 Ra values of the invented last shift, USL 1.6 µm."""
+    m = read_measurements(DEMO / "line3_spool_last_shift.csv", column="Ra")
+    return analyze(m, usl=1.6)
+
+
+@pytest.fixture(scope="module")
+def subgroup_analysis():
+    """Flatness in subgroups (X̄ chart), two-sided spec, one point excluded with a reason."""
+    m = read_measurements(DEMO / "line3_spool_wide.csv", column="Flatness", subgroup="Subgroup")
+    return analyze(m, lsl=0.0, usl=12.0, exclude={4: "fixture loose, re-clamped"}, characteristic="Flatness")
+
+
+@pytest.fixture(scope="module")
+def pdf_a4(ra_analysis) -> bytes:
+    return build_pdf(ra_analysis, meta=META, review=REVIEW, page="A4")
+
+
+@pytest.fixture(scope="module")
+def pdf_letter(subgroup_analysis) -> bytes:
+    return build_pdf(subgroup_analysis, page="Letter")
+
+
+def _text(pdf: bytes) -> str:
+    import io
+
+    reader = PdfReader(io.BytesIO(pdf))
+    return "\n".join(p.extract_text() for p in reader.pages)
+
+
+def _flat(s: str) -> str:
+    """Whitespace collapsed to single spaces (wrapped lines join up)."""
+    return re.sub(r"\s+", " ", s)
+
+
+# ----------------------------------------------------------------------------- text
+def test_every_section_heading_and_the_caution_are_present(pdf_a4):
+    text = _flat(_text(pdf_a4))
+    for i, title in enumerate(SECTION_TITLES.values(), start=1):
+        assert f"{i}. {title}" in text, title
+    assert _flat(CAUTION_TEXT) in text
+
+
+def test_header_fields_version_and_data_fingerprint(pdf_a4, ra_analysis):
+    text = _flat(_text(pdf_a4))
+    for v in ("Works 2", "Line 3", "L-1125 / C", "J. Doe", "2026-11-25", ra_analysis.version):
+        assert v in text
+    # The fingerprint is the history store's (one function, qcnorm.store.data_sha256).
+    assert data_sha256(ra_analysis.values) in text
+
+
+def test_review_decision_printed_when_given(pdf_a4, pdf_letter):
+    text = _flat(_text(pdf_a4))
+    assert "On hold" in text and "A. Reviewer" in text and REVIEW["comment"] in text
+    assert "No review decision has been recorded" not in text
+    assert "No review decision has been recorded" in _flat(_text(pdf_letter))
+
+
+def test_numbers_printed_equal_the_analysis(pdf_a4, ra_analysis):
+    d = ra_analysis.to_dict()
+    text = _flat(_text(pdf_a4))
+    assert f"Values analysed (n) {fmt(d['n'], 'int')}" in text
+    # normality table: one row per statistic, before and after
+    for label, key, kind in NORMALITY_ROWS:
+        row = f"{label} {fmt(d['normality']['raw'][key], kind)} {fmt(d['normality']['transformed'][key], kind)}"
+        assert row in text, row
+    # control limits in units and on the transformed scale
+    u, t = d["control"]["units"], d["control"]["transformed"]
+    assert f"Center {fmt(u['center'])} {fmt(t['center'])}" in text
+    assert f"Lower control limit {fmt(u['lcl'])} {fmt(t['lcl'])}" in text
+    assert f"Upper control limit {fmt(u['ucl'])} {fmt(t['ucl'])}" in text
+    # capability: estimate, interval, lower bound
+    cap = d["capability"]
+    for name, key in (("Cpk", "cpk"), ("Ppk", "ppk")):
+        ci = cap[f"{key}_ci"]
+        row = (f"{name} {fmt(cap[key], 'index')} {fmt(ci['low'], 'index')} {fmt(ci['high'], 'index')} "
+               f"{fmt(cap[f'{key}_lower_bound'], 'index')}")
+        assert row in text, row
+    assert (f"Expected, within sigma {fmt(cap['ppm_within_below'], 'ppm')} "
+            f"{fmt(cap['ppm_within_above'], 'ppm')} {fmt(cap['ppm_within'], 'ppm')}") in text
+    assert (f"Observed in these data {fmt(cap['ppm_observed_below'], 'ppm')} "
+            f"{fmt(cap['ppm_observed_above'], 'ppm')} {fmt(cap['ppm_observed'], 'ppm')}") in text
+    perc = cap["percentile"]
+    if perc.get("distribution"):
+        assert f"{perc['distribution']} {fmt(perc['pp'], 'index')} {fmt(perc['ppk'], 'index')}" in text
+    assert _flat(cap["verdict_text"]) in text
+    # candidate table: each candidate's AIC and AD p after
+    for c in d["transform"]["candidates"]:
+        assert fmt(c["aic"], "stat") in text and fmt(c["ad_p_value"], "p") in text
+    assert len(CANDIDATE_COLUMNS) >= 5
+
+
+def test_checklist_and_violations_printed(pdf_letter, subgroup_analysis):
+    d = subgroup_analysis.to_dict()
+    text = _flat(_text(pdf_letter))
+    for item in review_checklist(subgroup_analysis):
+        assert _flat(item.detail) in text
+    for v in d["control"]["violations"][:20]:
+        assert f"{v['index'] + 1} {v['rule']} {v['description']}" in text
+    # the exclusion and its reason are listed
+    assert "fixture loose, re-clamped" in text
+    assert "X̄" in text or "xbar" in text
+
+
+def test_same_input_gives_byte_identical_pdf(tmp_path, pdf_a4, ra_analysis):
+    # built a second time (through write_pdf): the same bytes
+    out = write_pdf(ra_analysis, tmp_path / "summary.pdf", meta=META, review=REVIEW, page="A4")
+    assert out.read_bytes() == pdf_a4
+    assert pdf_a4.startswith(b"%PDF-")
+
+
+def test_bad_arguments_get_a_clear_message(tmp_path, ra_analysis):
+    with pytest.raises(ConfigError, match="page size must be one of A4, Letter"):
+        build_pdf(ra_analysis, page="A3")
+    with pytest.raises(ConfigError, match="approve, hold, reject"):
+        build_pdf(ra_analysis, review={"decision": "maybe"})
+    with pytest.raises(ConfigError, match="ISO date"):
+        build_pdf(ra_analysis, meta=ReportMeta(date="25/11/2026"))
+    with pytest.raises(ConfigError, match="could not be written"):
+        write_pdf(ra_analysis, tmp_path / "no" / "such" / "dir" / "x.pdf")
+    with pytest.raises(QcnormError):
+        build_pdf({"n": 3})
+
+
+def test_fmt_is_the_one_formatting_rule():
+    assert fmt(None) == fmt(float("nan")) == "—"
+    assert fmt(1.3333, "index") == "1.33"
+    assert fmt(2.7e-6, "p") == "< 0.0001" and fmt(0.0512, "p") == "0.0512"
+    assert fmt(2699.8, "ppm") == "2,700" and fmt(0.5397, "ppm") == "0.54" and fmt(0.0, "ppm") == "0"
+    assert fmt(50.81234) == "50.81"
+    with pytest.raises(ConfigError, match="value, index, p, ppm, int, stat"):
+        fmt(1.0, "percent")
+
+
+# ----------------------------------------------------------------------------- rendering
+def _render(pdf: bytes, name: str, folder: Path) -> list[Path]:
+    if shutil.which("pdftoppm") is None:
+        skip_or_fail("poppler-utils not installed", "QCNORM_REQUIRE_BROWSER")
+    folder.mkdir(parents=True, exist_ok=True)
+    src = folder / f"{name}.pdf"
+    src.write_bytes(pdf)
+    for old in folder.glob(f"{name}-*.png"):
+        old.unlink()
+    subprocess.run(["pdftoppm", "-r", "50", "-png", str(src), str(folder / name)], check=True, timeout=60)
+    return sorted(folder.glob(f"{name}-*.png"))
+
+
+@pytest.mark.parametrize("which", ["a4", "letter"])
+def test_pdftoppm_renders_every_page(which, pdf_a4, pdf_letter, artifacts_dir):
+    import io
+
+    pdf = pdf_a4 if which == "a4" else pdf_letter
+    pages = PdfReader(io.BytesIO(pdf)).pages
+    pngs = _render(pdf, f"summary-{which}", artifacts_dir / "report")
+    assert len(pngs) == len(pages) >= 3
+    assert all(p.stat().st_size > 2000 for p in pngs)  # not blank
+
+
+def _word_boxes(pdf: bytes, tmp_path: Path) -> list[tuple[float, float, list[tuple[float, float, float, float, str]]]]:
+    if shutil.which("pdftotext") is None:
+        skip_or_fail("poppler-utils not installed", "QCNORM_REQUIRE_BROWSER")
+    src = tmp_path / "x.pdf"
+    src.write_bytes(pdf)
+    html = subprocess.run(["pdftotext", "-bbox", str(src), "-"], check=True, capture_output=True,
+                          text=True, timeout=60).stdout
+    pages = []
+    for m in re.finditer(r'<page width="([\d.]+)" height="([\d.]+)">(.*?)</page>', html, re.S):
+        words = [
+            (float(a), float(b), float(c), float(d), w)
+            for a, b, c, d, w in re.findall(
+                r'<word xMin="([\d.-]+)" yMin="([\d.-]+)" xMax="([\d.-]+)" yMax="([\d.-]+)">(.*?)</word>',
+                m.group(3))
+        ]
+        pages.append((float(m.group(1)), float(m.group(2)), words))
+    return pages
+
+
+@pytest.mark.parametrize("which,page", [("a4", "A4"), ("letter", "Letter")])
+def test_text_stays_inside_the_margins(which, page, pdf_a4, pdf_letter, tmp_path):
+    """Every word box (poppler's layout) lies within the 15 mm margins of the paper size."""
+    pdf = pdf_a4 if which == "a4" else pdf_letter
+    pages = _word_boxes(pdf, tmp_path)
+    w_mm, h_mm = PAGE_SIZES[page]
+    pt = 72 / 25.4
+    margin = 15 * pt - 1.0  # 1 pt tolerance for glyph side bearings
+    assert pages
+    for width, height, words in pages:
+        assert width == pytest.approx(w_mm * pt, abs=0.5) and height == pytest.approx(h_mm * pt, abs=0.5)
+        assert words
+        for x0, y0, x1, y1, w in words:
+            assert margin <= x0 and x1 <= width - margin, (w, x0, x1)
+            assert 0 <= y0 and y1 <= height, (w, y0, y1)
+
+
+# ----------------------------------------------------------------------------- checklist
+@pytest.fixture(scope="module")
+def base_dict(ra_analysis) -> dict:
+    return ra_analysis.to_dict()
+
+
+def _item(d: dict, key: str):
+    return {i.key: i for i in review_checklist(d)}[key]
+
+
+def test_checklist_thresholds_are_the_stated_ones():
+    # common practice: 5 % level, at least 30 values; kept equal to the analysis's own rule
+    assert AD_P_MIN == 0.05
+    assert MIN_N == SMALL_N == 30
+    assert CHECKLIST_KEYS == ("in_control", "transform_adequate", "enough_data", "capability")
+
+
+def test_checklist_in_control_follows_the_chart(base_dict):
+    d = copy.deepcopy(base_dict)
+    d["control"]["in_control"], d["control"]["violations"] = True, []
+    assert _item(d, "in_control").passed is True
+    d["control"]["in_control"] = False
+    d["control"]["violations"] = [{"rule": "WE1", "index": 6, "description": "x", "points": [6]}]
+    it = _item(d, "in_control")
+    assert it.passed is False and "WE1" in it.detail and "point 7" in it.detail
+    d["control"]["phase"] = "II"
+    assert "baseline" in _item(d, "in_control").name
+
+
+def test_checklist_transform_adequate_at_ad_p_005(base_dict):
+    """Anderson–Darling p after the transform ≥ 0.05 passes (5 % level, common practice)."""
+    d = copy.deepcopy(base_dict)
+    for p, expected in ((0.05, True), (0.7, True), (0.0499, False), (1e-9, False), (None, None)):
+        d["normality"]["transformed"]["ad_p_value"] = p
+        assert _item(d, "transform_adequate").passed is expected, p
+
+
+def test_checklist_enough_data_at_n_30(base_dict):
+    """n ≥ 30 (common practice)."""
+    d = copy.deepcopy(base_dict)
+    for n, expected in ((30, True), (900, True), (29, False), (5, False)):
+        d["n"] = n
+        assert _item(d, "enough_data").passed is expected, n
+
+
+def test_checklist_capability_uses_the_lower_bound(base_dict):
+    """Passes only when the lower confidence bound reaches the required index."""
+    d = copy.deepcopy(base_dict)
+    cap = d["capability"]
+    cap["required_index"] = 1.33
+    cap.update(verdict_index_name="Cpk", verdict_point=1.6, verdict_lower_bound=1.33)
+    assert _item(d, "capability").passed is True
+    cap.update(verdict_point=1.5, verdict_lower_bound=1.2)  # point meets, bound does not
+    it = _item(d, "capability")
+    assert it.passed is False and "lower bound does not" in it.detail
+    cap.update(verdict_point=1.0, verdict_lower_bound=0.8)
+    assert _item(d, "capability").passed is False
+    cap.update(verdict_point=None, verdict_lower_bound=None, verdict="not_assessed")
+    assert _item(d, "capability").passed is None
+
+
+def test_checklist_on_real_analyses_agrees_with_the_core(ra_analysis, shift_analysis, subgroup_analysis):
+    for a in (ra_analysis, shift_analysis, subgroup_analysis):
+        items = {i.key: i for i in review_checklist(a)}
+        assert items["in_control"].passed is a.in_control
+        p = a.normality_transformed.ad_p_value
+        assert items["transform_adequate"].passed is (p >= 0.05)
+        assert items["enough_data"].passed is (a.n >= 30)
+        # the capability verdict of qcnorm.capability: "meets" iff the lower bound reaches it
+        if a.capability is None or a.capability.verdict == "not_assessed":
+            assert items["capability"].passed is None
+        else:
+            assert items["capability"].passed is (a.capability.verdict == "meets")
+        # every signal, on either chart, is named in the detail
+        for v in (*a.chart.violations, *a.chart.dispersion.violations):
+            assert v.rule in items["in_control"].detail
+        # the dict (a saved analysis) gives the same answers as the object (the details may
+        # differ: to_dict() does not yet list the dispersion-chart signals)
+        assert [i.passed for i in review_checklist(a.to_dict())] == [i.passed for i in items.values()]
+        outcome = checklist_outcome(tuple(items.values()))
+        assert outcome in ("all_pass", "some_fail", "incomplete")
+    with pytest.raises(ConfigError, match="needs an Analysis"):
+        review_checklist(42)
+
+
+# ----------------------------------------------------------------------------- CLI
+def test_cli_writes_the_pdf(tmp_path):
+    out = tmp_path / "out.pdf"
+    r = subprocess.run(
+        [sys.executable, "-m", "qcnorm", "analyze", str(DEMO / "line3_spool_last_shift.csv"),
+         "--column", "Ra", "--usl", "1.6", "--pdf", str(out)],
+        capture_output=True, text=True, timeout=120, cwd=ROOT,
+    )
+    assert r.returncode == 0, r.stderr
+    data = out.read_bytes()
+    assert data.startswith(b"%PDF-") and data.rstrip().endswith(b"%%EOF")
+    assert SECTION_TITLES["capability"] in _flat(_text(data))
