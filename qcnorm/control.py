@@ -1,0 +1,1129 @@
+"""Shewhart control charts on the transformed scale, run rules, and limits in units.
+
+Three charts, chosen by name from :data:`CHARTS`:
+
+* ``"individuals"`` — individual values with a moving-range chart (span 2);
+* ``"xbar_r"`` — subgroup means with a range chart;
+* ``"xbar_s"`` — subgroup means with a standard-deviation chart;
+
+and ``"auto"``, which picks individuals for single values, X̄–R for subgroups of at most
+9 values and X̄–S above (common practice; Montgomery, ch. 6).
+
+Every limit is computed from a centre and a within-subgroup sigma:
+point limits center ± 3σ/√n_i, range-chart limits (d2 ∓ 3d3)(n_i)·σ, s-chart limits
+(c4 ∓ 3√(1−c4²))(n_i)·σ. With equal subgroup sizes in Phase I these are exactly the
+textbook forms X̄̄ ± A2·R̄, D3·R̄, D4·R̄, X̄̄ ± A3·s̄, B3·s̄, B4·s̄, and the same code
+serves Phase II (limits from a frozen :class:`ChartBaseline`) and unequal sizes.
+
+Phase I: points the user marks as assignable causes (``exclude``) stay on the chart but
+do not enter the centre or sigma; moving ranges touching them are dropped; they never
+trigger or count in the run rules. Phase II: the centre and sigma come from the
+baseline and nothing is re-estimated.
+
+:func:`run_rules` applies the Western Electric (1956) zone rules or the Nelson (1984)
+tests to standardized points, vectorised with cumulative sums.
+
+:func:`limits_in_units` maps centre, limits and points back to measurement units with a
+fitted transform's ``inverse_transform``; a limit outside what the transform can reach
+is reported as missing with a note, never as a made-up number.
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+from collections.abc import Callable, Iterable, Mapping
+from dataclasses import dataclass
+from itertools import compress
+from typing import Any, ClassVar
+
+import numpy as np
+import pandas as pd
+
+from ._results import Result
+from ._validation import check_sample
+from .constants import MAX_SUBGROUP_SIZE, c4, d2, d3
+from .errors import ConfigError, DataError
+
+__all__ = [
+    "CHARTS",
+    "RULE_SETS",
+    "MIN_POINTS",
+    "RECOMMENDED_POINTS",
+    "AUTO_XBAR_R_MAX_SIZE",
+    "Exclusion",
+    "Violation",
+    "DispersionChart",
+    "ChartBaseline",
+    "ControlChart",
+    "UnitsLimits",
+    "control_chart",
+    "run_rules",
+    "limits_in_units",
+]
+
+#: Fewest points (values for individuals, subgroups otherwise) that are not excluded.
+MIN_POINTS = 2
+#: Phase I limits from fewer points are flagged as rough (common practice: 20–25
+#: subgroups; Montgomery, ch. 6).
+RECOMMENDED_POINTS = 20
+#: "auto" uses X̄–R up to this subgroup size and X̄–S above (common practice).
+AUTO_XBAR_R_MAX_SIZE = 9
+
+#: Chart types by name, with what each plots. "auto" chooses among the others.
+CHARTS: dict[str, str] = {
+    "auto": "chosen from the subgroup sizes",
+    "individuals": "individuals and moving range",
+    "xbar_r": "X̄–R (subgroup means and ranges)",
+    "xbar_s": "X̄–S (subgroup means and standard deviations)",
+}
+_CHART_WORDS = CHARTS
+_DISPERSION_STATISTIC = {"individuals": "moving_range", "xbar_r": "range", "xbar_s": "stdev"}
+
+
+# ======================================================================================
+# Result types
+# ======================================================================================
+
+
+@dataclass(frozen=True, slots=True)
+class Exclusion(Result):
+    """A point left out of the estimates (Phase I), with the reason given by the user.
+
+    ``index`` is the 0-based position of the point on the chart: the observation for an
+    individuals chart, the subgroup otherwise.
+    """
+
+    index: int
+    reason: str
+
+
+@dataclass(frozen=True, slots=True)
+class Violation(Result):
+    """One run-rule signal.
+
+    Attributes
+    ----------
+    rule : str
+        Rule id: ``"WE1"``–``"WE4"`` (Western Electric), ``"N1"``–``"N8"`` (Nelson), or
+        ``"DISP"`` (dispersion statistic beyond its limits).
+    description : str
+        The rule in plain words, with the side where it applies.
+    index : int
+        0-based point where the rule triggers (the last point of the pattern).
+    points : tuple of int
+        The points that make up the pattern.
+    """
+
+    rule: str
+    description: str
+    index: int
+    points: tuple[int, ...]
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class DispersionChart(Result):
+    """The companion chart of within-subgroup spread.
+
+    Attributes
+    ----------
+    statistic : {"moving_range", "range", "stdev"}
+    values : ndarray
+        The statistic per point (NaN where undefined: the first moving range, a
+        subgroup of one value).
+    center, ucl, lcl : ndarray
+        Centre line and limits per point (they vary when subgroup sizes differ).
+    used : ndarray of bool
+        Which values entered the sigma estimate (Phase I) — moving ranges touching an
+        excluded point and excluded subgroups do not.
+    violations : tuple of Violation
+        Values above the upper or below a positive lower limit (rule ``"DISP"``).
+    """
+
+    statistic: str
+    values: np.ndarray
+    center: np.ndarray
+    ucl: np.ndarray
+    lcl: np.ndarray
+    used: np.ndarray
+    violations: tuple[Violation, ...]
+
+    @property
+    def center_value(self) -> float:
+        """The centre line when it is the same for every point, else NaN."""
+        return _common_value(self.center)
+
+    @property
+    def ucl_value(self) -> float:
+        """The upper limit when it is the same for every point, else NaN."""
+        return _common_value(self.ucl)
+
+    @property
+    def lcl_value(self) -> float:
+        """The lower limit when it is the same for every point, else NaN."""
+        return _common_value(self.lcl)
+
+
+@dataclass(frozen=True, slots=True)
+class ChartBaseline(Result):
+    """Frozen centre and within sigma of a Phase I chart, for Phase II charting.
+
+    Attributes
+    ----------
+    chart : {"individuals", "xbar_r", "xbar_s"}
+    center : float
+        Centre line on the transformed scale.
+    sigma_within : float
+        Within-subgroup standard deviation on the transformed scale.
+    subgroup_size : int or None
+        The subgroup size of the Phase I chart; None for individuals or mixed sizes.
+        Limits in Phase II are computed for each new subgroup's own size.
+    """
+
+    chart: str
+    center: float
+    sigma_within: float
+    subgroup_size: int | None
+
+    def __post_init__(self) -> None:
+        if self.chart not in _DISPERSION_STATISTIC:
+            raise ConfigError(
+                f"The 'chart' of a ChartBaseline must be one of "
+                f"{', '.join(repr(c) for c in _DISPERSION_STATISTIC)}. Got {self.chart!r} instead."
+            )
+        for name in ("center", "sigma_within"):
+            v = getattr(self, name)
+            if isinstance(v, bool) or not isinstance(v, numbers.Real) or not math.isfinite(v):
+                raise ConfigError(
+                    f"The '{name}' of a ChartBaseline must be a finite number. Got {v!r} instead."
+                )
+        if not self.sigma_within > 0:
+            raise ConfigError(
+                f"The 'sigma_within' of a ChartBaseline must be positive. Got {self.sigma_within!r} "
+                "instead. Rebuild the baseline from a Phase I chart with some spread."
+            )
+        s = self.subgroup_size
+        if s is not None and (isinstance(s, bool) or not isinstance(s, numbers.Integral) or s < 1):
+            raise ConfigError(
+                f"The 'subgroup_size' of a ChartBaseline must be a positive whole number or None. "
+                f"Got {s!r} instead."
+            )
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any]) -> ChartBaseline:
+        """Rebuild a baseline from :meth:`to_dict` output (e.g. read back from JSON)."""
+        if not isinstance(data, Mapping):
+            raise ConfigError(
+                f"A ChartBaseline must be read from a mapping with keys chart, center, "
+                f"sigma_within, subgroup_size. Got {type(data).__name__} instead."
+            )
+        missing = [k for k in ("chart", "center", "sigma_within") if k not in data]
+        if missing:
+            raise ConfigError(
+                f"The stored control-chart baseline lacks {', '.join(missing)}. "
+                "Freeze a new baseline from a Phase I chart."
+            )
+        size = data.get("subgroup_size")
+        try:
+            center = float(data["center"])
+            sigma = float(data["sigma_within"])
+            if size is not None:
+                if float(size) != int(size):
+                    raise ValueError
+                size = int(size)
+        except (TypeError, ValueError):
+            raise ConfigError(
+                "The stored control-chart baseline has a centre, sigma or subgroup size that is "
+                f"not a number ({dict(data)!r}). Freeze a new baseline from a Phase I chart."
+            ) from None
+        return cls(chart=str(data["chart"]), center=center, sigma_within=sigma, subgroup_size=size)
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class ControlChart(Result):
+    """A Shewhart control chart on the transformed scale.
+
+    Attributes
+    ----------
+    chart : {"individuals", "xbar_r", "xbar_s"}
+    phase : {"I", "II"}
+        "I": centre and sigma estimated from these data; "II": taken from a baseline.
+    points : ndarray
+        The plotted statistic per point (value or subgroup mean).
+    sizes : ndarray of int
+        Values per point (1 for individuals).
+    labels : ndarray
+        Subgroup labels in order of first appearance, or 1..n for individuals.
+    center : float
+        Centre line.
+    ucl, lcl : ndarray
+        Control limits per point: center ± 3·sigma_points.
+    sigma_within : float
+        Within-subgroup sigma (MR̄/d2(2), R̄/d2(n), s̄/c4(n) or the unequal-size
+        estimators named in ``sigma_method``).
+    sigma_points : ndarray
+        Sigma of each plotted point, sigma_within/√n_i.
+    dispersion : DispersionChart
+    excluded : tuple of Exclusion
+    violations : tuple of Violation
+        Run-rule signals on the points (excluded points neither trigger nor count).
+    rules : str
+        The rule set used.
+    sigma_overall : float
+        Sample standard deviation (n − 1) of the individual values not excluded
+        (the sigma of Pp/Ppk).
+    grand_mean : float
+        Mean of the individual values not excluded.
+    n_values : int
+        Number of individual values on the chart, excluded ones included.
+    n_used : int
+        Number of individual values not excluded.
+    in_control : bool
+        True when there is no run-rule signal and no dispersion value beyond its limits
+        among the points not excluded.
+    sigma_method : str
+        How sigma_within was obtained, in words.
+    warnings : tuple of str
+    """
+
+    chart: str
+    phase: str
+    points: np.ndarray
+    sizes: np.ndarray
+    labels: np.ndarray
+    center: float
+    ucl: np.ndarray
+    lcl: np.ndarray
+    sigma_within: float
+    sigma_points: np.ndarray
+    dispersion: DispersionChart
+    excluded: tuple[Exclusion, ...]
+    violations: tuple[Violation, ...]
+    rules: str
+    sigma_overall: float
+    grand_mean: float
+    n_values: int
+    n_used: int
+    in_control: bool
+    sigma_method: str
+    warnings: tuple[str, ...]
+
+    _skip_in_dict: ClassVar[tuple[str, ...]] = ()
+
+    @property
+    def ucl_value(self) -> float:
+        """The upper limit when it is the same for every point, else NaN."""
+        return _common_value(self.ucl)
+
+    @property
+    def lcl_value(self) -> float:
+        """The lower limit when it is the same for every point, else NaN."""
+        return _common_value(self.lcl)
+
+    @property
+    def z(self) -> np.ndarray:
+        """Standardized points (point − center)/sigma_point, as used by the run rules."""
+        return (self.points - self.center) / self.sigma_points
+
+    @property
+    def excluded_mask(self) -> np.ndarray:
+        """Boolean mask of excluded points."""
+        mask = np.zeros(self.points.size, dtype=bool)
+        mask[[e.index for e in self.excluded]] = True
+        return mask
+
+    def to_baseline(self) -> ChartBaseline:
+        """Freeze this chart's centre and within sigma for Phase II charting."""
+        size: int | None = None
+        if self.chart != "individuals":
+            kept = self.sizes[~self.excluded_mask]
+            if kept.size and np.all(kept == kept[0]):
+                size = int(kept[0])
+        return ChartBaseline(
+            chart=self.chart,
+            center=float(self.center),
+            sigma_within=float(self.sigma_within),
+            subgroup_size=size,
+        )
+
+    def summary(self) -> pd.DataFrame:
+        """One row per point: label, size, statistic, limits, z, dispersion, rules tripped."""
+        flags: dict[int, list[str]] = {}
+        for v in self.violations + self.dispersion.violations:
+            flags.setdefault(v.index, []).append(v.rule)
+        reasons = {e.index: e.reason for e in self.excluded}
+        n = self.points.size
+        return pd.DataFrame(
+            {
+                "label": self.labels,
+                "size": self.sizes,
+                "point": self.points,
+                "center": np.full(n, self.center),
+                "lcl": self.lcl,
+                "ucl": self.ucl,
+                "z": self.z,
+                "excluded": self.excluded_mask,
+                "exclusion_reason": [reasons.get(i, "") for i in range(n)],
+                self.dispersion.statistic: self.dispersion.values,
+                "dispersion_lcl": self.dispersion.lcl,
+                "dispersion_ucl": self.dispersion.ucl,
+                "rules": [", ".join(flags.get(i, ())) for i in range(n)],
+            }
+        )
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class UnitsLimits(Result):
+    """Centre, limits and points of a chart in measurement units.
+
+    Attributes
+    ----------
+    center : float
+        inverse_transform(center).
+    ucl, lcl : ndarray
+        inverse_transform of the limits per point; NaN where the limit lies outside the
+        transform's image (no limit on that side in measurement units).
+    points : ndarray
+        The original values (individuals) or the back-transformed subgroup means.
+    ucl_note, lcl_note : str or None
+        Plain-words note when a limit is missing, else None.
+    transform : str
+        Name of the transform.
+    """
+
+    center: float
+    ucl: np.ndarray
+    lcl: np.ndarray
+    points: np.ndarray
+    ucl_note: str | None
+    lcl_note: str | None
+    transform: str
+
+    @property
+    def ucl_value(self) -> float:
+        """The upper limit when it is the same for every point, else NaN."""
+        return _common_value(self.ucl)
+
+    @property
+    def lcl_value(self) -> float:
+        """The lower limit when it is the same for every point, else NaN."""
+        return _common_value(self.lcl)
+
+
+def _common_value(a: np.ndarray) -> float:
+    a = np.asarray(a, dtype=np.float64)
+    if a.size == 0:
+        return math.nan
+    first = a[0]
+    if np.all(np.isnan(a)):
+        return math.nan
+    if np.allclose(a, first, rtol=1e-12, atol=0.0, equal_nan=False):
+        return float(first)
+    return math.nan
+
+
+# ======================================================================================
+# Run rules
+# ======================================================================================
+
+
+def _window_count(cond: np.ndarray, w: int) -> np.ndarray:
+    """Number of True in the window of length ``w`` ending at each index (-1 before w−1)."""
+    m = cond.size
+    out = np.full(m, -1, dtype=np.int64)
+    if m >= w:
+        cs = np.concatenate(([0], np.cumsum(cond, dtype=np.int64)))
+        out[w - 1 :] = cs[w:] - cs[: m - w + 1]
+    return out
+
+
+@dataclass(frozen=True)
+class _Hit:
+    rule: str
+    ends: np.ndarray  # compressed index where the rule triggers
+    starts: np.ndarray  # compressed index of the first point of the pattern
+    qual: np.ndarray | None  # k-of-m rules: side (+1/-1) of the pattern per hit
+    words: list[str]  # description per hit
+    level: float = 0.0  # k-of-m rules: the sigma level the reported points exceed
+
+
+def _beyond(z: np.ndarray, rule: str, k: float) -> _Hit:
+    hi, lo = z > k, z < -k
+    ends = np.flatnonzero(hi | lo)
+    words = [
+        f"a point more than {k:g} sigma {'above' if z[i] > 0 else 'below'} the centre line" for i in ends
+    ]
+    return _Hit(rule, ends, ends, None, words)
+
+
+def _k_of_m(z: np.ndarray, rule: str, k: int, m: int, level: float) -> _Hit:
+    ends_all, quals, words = [], [], []
+    for sign, side in ((1.0, "above"), (-1.0, "below")):
+        cond = sign * z > level
+        # Trigger where the window holds k of m AND the current point is one of them,
+        # so that one pattern is flagged where it is completed, not again as it slides.
+        hit = (_window_count(cond, m) >= k) & cond
+        e = np.flatnonzero(hit)
+        ends_all.append(e)
+        quals.append(np.repeat(sign, e.size))
+        words += [f"{k} of {m} points in a row more than {level:g} sigma {side} the centre line"] * e.size
+    ends = np.concatenate(ends_all)
+    signs = np.concatenate(quals)
+    order = np.argsort(ends, kind="stable")
+    return _Hit(
+        rule,
+        ends[order],
+        np.maximum(ends[order] - m + 1, 0),
+        signs[order],
+        [words[i] for i in order],
+        level,
+    )
+
+
+def _run_same_side(z: np.ndarray, rule: str, w: int) -> _Hit:
+    ends_all, words = [], []
+    for cond, side in ((z > 0, "above"), (z < 0, "below")):
+        e = np.flatnonzero(_window_count(cond, w) == w)
+        ends_all.append(e)
+        words += [f"{w} points in a row {side} the centre line"] * e.size
+    ends = np.concatenate(ends_all)
+    order = np.argsort(ends, kind="stable")
+    return _Hit(rule, ends[order], ends[order] - w + 1, None, [words[i] for i in order])
+
+
+def _trend(z: np.ndarray, rule: str, w: int) -> _Hit:
+    d = np.diff(z)
+    ends_all, words = [], []
+    for cond, how in ((d > 0, "increasing"), (d < 0, "decreasing")):
+        e = np.flatnonzero(_window_count(cond, w - 1) == w - 1) + 1  # diff j joins j, j+1
+        ends_all.append(e)
+        words += [f"{w} points in a row steadily {how}"] * e.size
+    ends = np.concatenate(ends_all)
+    order = np.argsort(ends, kind="stable")
+    return _Hit(rule, ends[order], ends[order] - w + 1, None, [words[i] for i in order])
+
+
+def _alternating(z: np.ndarray, rule: str, w: int) -> _Hit:
+    d = np.sign(np.diff(z))
+    alt = (d[:-1] * d[1:]) < 0  # alt[k]: diffs k and k+1 change direction at point k+1
+    ends = np.flatnonzero(_window_count(alt, w - 2) == w - 2) + 2
+    return _Hit(rule, ends, ends - w + 1, None, [f"{w} points in a row alternating up and down"] * ends.size)
+
+
+def _run_cond(z: np.ndarray, rule: str, w: int, cond: np.ndarray, words: str) -> _Hit:
+    ends = np.flatnonzero(_window_count(cond, w) == w)
+    return _Hit(rule, ends, ends - w + 1, None, [words] * ends.size)
+
+
+_RuleFn = Callable[[np.ndarray], _Hit]
+
+#: Rule sets by name. Each rule maps standardized points (excluded ones removed) to hits.
+RULE_SETS: dict[str, tuple[tuple[str, _RuleFn], ...]] = {
+    # Western Electric Co. (1956), Statistical Quality Control Handbook, zone rules 1-4.
+    "western_electric": (
+        ("WE1", lambda z: _beyond(z, "WE1", 3.0)),
+        ("WE2", lambda z: _k_of_m(z, "WE2", 2, 3, 2.0)),
+        ("WE3", lambda z: _k_of_m(z, "WE3", 4, 5, 1.0)),
+        ("WE4", lambda z: _run_same_side(z, "WE4", 8)),
+    ),
+    # Nelson, L.S. (1984), J. Quality Technology 16(4), 237-239, tests 1-8.
+    "nelson": (
+        ("N1", lambda z: _beyond(z, "N1", 3.0)),
+        ("N2", lambda z: _run_same_side(z, "N2", 9)),
+        ("N3", lambda z: _trend(z, "N3", 6)),
+        ("N4", lambda z: _alternating(z, "N4", 14)),
+        ("N5", lambda z: _k_of_m(z, "N5", 2, 3, 2.0)),
+        ("N6", lambda z: _k_of_m(z, "N6", 4, 5, 1.0)),
+        (
+            "N7",
+            lambda z: _run_cond(
+                z, "N7", 15, np.abs(z) < 1.0, "15 points in a row within 1 sigma of the centre line (either side)"
+            ),
+        ),
+        (
+            "N8",
+            lambda z: _run_cond(
+                z, "N8", 8, np.abs(z) > 1.0, "8 points in a row more than 1 sigma from the centre line (either side)"
+            ),
+        ),
+    ),
+}
+
+
+def run_rules(z: Any, rules: str = "western_electric", *, excluded: Any = None) -> tuple[Violation, ...]:
+    r"""Apply a set of run rules to standardized chart points.
+
+    Parameters
+    ----------
+    z : array_like
+        Standardized points z_i = (point_i − center)/σ_point_i, in time order.
+    rules : {"western_electric", "nelson"}
+        Rule set (see :data:`RULE_SETS`).
+    excluded : array_like of bool, optional
+        Mask of points that neither trigger nor count (Phase I exclusions). Non-finite
+        z values are treated as excluded too.
+
+    Returns
+    -------
+    tuple of Violation
+        Sorted by point, then by rule order. A rule is reported at every point where
+        its pattern is complete; for "k of m" rules the point itself must be one of the
+        k, so a pattern is reported where it is completed rather than again as the
+        window slides on.
+
+    Notes
+    -----
+    "Beyond kσ" means |z| > k strictly; "in a row on one side" means z > 0 (or z < 0)
+    for every point, so a point exactly on the centre line breaks the run; ties break
+    trends and alternation. Excluded points are removed from the sequence and the rules
+    run on the remaining points in order (the pattern may span an excluded point).
+
+    Western Electric (1956): WE1 one point beyond 3σ; WE2 2 of 3 consecutive beyond 2σ
+    on the same side; WE3 4 of 5 beyond 1σ on the same side; WE4 8 in a row on one side.
+
+    Nelson (1984): N1 beyond 3σ; N2 nine in a row on one side; N3 six in a row steadily
+    increasing or decreasing; N4 fourteen in a row alternating up and down; N5 2 of 3
+    beyond 2σ same side; N6 4 of 5 beyond 1σ same side; N7 fifteen in a row within 1σ;
+    N8 eight in a row beyond 1σ on either side.
+
+    Each rule is one pass of cumulative sums over the series: O(n) time and memory.
+
+    References
+    ----------
+    Western Electric Co. (1956). Statistical Quality Control Handbook. Indianapolis.
+    Nelson, L.S. (1984). The Shewhart control chart — tests for special causes.
+    Journal of Quality Technology 16(4), 237–239.
+    """
+    table = RULE_SETS.get(rules) if isinstance(rules, str) else None
+    if table is None:
+        raise ConfigError(
+            f"The 'rules' parameter of run_rules must be one of "
+            f"{', '.join(repr(k) for k in RULE_SETS)}. Got {rules!r} instead."
+        )
+    zz = np.asarray(z, dtype=np.float64).ravel()
+    keep = np.isfinite(zz)
+    if excluded is not None:
+        ex = np.asarray(excluded, dtype=bool).ravel()
+        if ex.shape != zz.shape:
+            raise DataError(
+                f"The 'excluded' mask of run_rules must have one entry per point ({zz.size}). "
+                f"Got {ex.size} instead."
+            )
+        keep &= ~ex
+    orig = np.flatnonzero(keep)
+    zc = zz[keep]
+    if zc.size == 0:
+        return ()
+
+    orig_list = orig.tolist()
+    ends_all, order_all, made = [], [], []
+    for order, (_, fn) in enumerate(table):
+        hit = fn(zc)
+        ends, starts = hit.ends.tolist(), hit.starts.tolist()
+        if hit.qual is None:
+            pts = [tuple(orig_list[a : b + 1]) for a, b in zip(starts, ends)]
+        else:
+            # report the points of the window beyond the level on the pattern's side
+            width = int(hit.ends[0] - hit.starts[0] + 1) if hit.ends.size else 0
+            idx = hit.starts[:, None] + np.arange(width)[None, :]
+            beyond = (hit.qual[:, None] * zc[idx] > hit.level).tolist()
+            rows = orig[idx].tolist()
+            pts = [tuple(compress(r, m)) for r, m in zip(rows, beyond)]
+        made.append(
+            [Violation(hit.rule, w, orig_list[e], p) for w, e, p in zip(hit.words, ends, pts)]
+        )
+        ends_all.append(orig[hit.ends])
+        order_all.append(np.full(hit.ends.size, order))
+    flat = [v for group in made for v in group]
+    if not flat:
+        return ()
+    sort = np.lexsort((np.concatenate(order_all), np.concatenate(ends_all)))
+    return tuple(flat[i] for i in sort.tolist())
+
+
+# ======================================================================================
+# Control chart
+# ======================================================================================
+
+
+def _parse_exclude(exclude: Any, n_points: int, unit: str) -> tuple[Exclusion, ...]:
+    if exclude is None:
+        return ()
+    if isinstance(exclude, (str, bytes)):
+        raise ConfigError(
+            "The 'exclude' parameter of control_chart must be point numbers, (number, reason) "
+            f"pairs or a mapping {{number: reason}}. Got the text {exclude!r} instead."
+        )
+    if isinstance(exclude, Mapping):
+        items: Iterable[Any] = list(exclude.items())
+    else:
+        try:
+            items = list(exclude)
+        except TypeError:
+            raise ConfigError(
+                "The 'exclude' parameter of control_chart must be point numbers, (number, reason) "
+                f"pairs or a mapping {{number: reason}}. Got {type(exclude).__name__} instead."
+            ) from None
+    out: dict[int, str] = {}
+    bad: list[str] = []
+    for item in items:
+        if isinstance(item, Exclusion):
+            idx, reason = item.index, item.reason
+        elif isinstance(item, tuple) and len(item) == 2:
+            idx, reason = item
+        elif isinstance(item, (list,)) and len(item) == 2:
+            idx, reason = item
+        else:
+            idx, reason = item, ""
+        if isinstance(idx, bool) or not isinstance(idx, numbers.Integral):
+            bad.append(repr(idx))
+            continue
+        i = int(idx)
+        if not 0 <= i < n_points:
+            bad.append(str(i))
+            continue
+        out.setdefault(i, str(reason) if reason is not None else "")
+    if bad:
+        raise ConfigError(
+            f"The 'exclude' parameter of control_chart names {unit} {', '.join(bad[:10])}"
+            f"{' …' if len(bad) > 10 else ''}, which the chart does not have: it has {n_points} "
+            f"{unit}s, numbered 0 to {n_points - 1}. Correct the point numbers."
+        )
+    return tuple(Exclusion(i, out[i] or "excluded by user") for i in sorted(out))
+
+
+@dataclass
+class _Groups:
+    points: np.ndarray
+    sizes: np.ndarray
+    labels: np.ndarray
+    codes: np.ndarray | None  # per value, group index (None for individuals)
+    ranges: np.ndarray
+    stdevs: np.ndarray
+
+
+def _group(y: np.ndarray, subgroups: Any) -> _Groups:
+    if subgroups is None:
+        n = y.size
+        return _Groups(y, np.ones(n, dtype=np.int64), np.arange(1, n + 1), None, np.zeros(n), np.zeros(n))
+    try:
+        lab = pd.Series(list(subgroups) if not hasattr(subgroups, "__len__") else subgroups)
+    except TypeError:
+        raise ConfigError(
+            "The 'subgroups' parameter of control_chart must be a sequence of labels, one per value. "
+            f"Got {type(subgroups).__name__} instead."
+        ) from None
+    if lab.size != y.size:
+        raise DataError(
+            f"The 'subgroups' parameter of control_chart must give one label per value: got {lab.size} "
+            f"labels for {y.size} values. Check that the subgroup column matches the value column."
+        )
+    codes, uniques = pd.factorize(lab.to_numpy(), sort=False, use_na_sentinel=True)
+    missing = np.flatnonzero(codes < 0)
+    if missing.size:
+        where = ", ".join(str(i + 1) for i in missing[:5]) + (" …" if missing.size > 5 else "")
+        raise DataError(
+            f"{missing.size} value(s) have no subgroup label (positions {where}). "
+            "Fill in the subgroup column or remove those rows."
+        )
+    k = len(uniques)
+    sizes = np.bincount(codes, minlength=k).astype(np.int64)
+    sums = np.bincount(codes, weights=y, minlength=k)
+    means = sums / sizes
+    dev = y - means[codes]
+    ss = np.bincount(codes, weights=dev * dev, minlength=k)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        stdevs = np.where(sizes > 1, np.sqrt(ss / np.maximum(sizes - 1, 1)), np.nan)
+    order = np.argsort(codes, kind="stable")
+    starts = np.concatenate(([0], np.cumsum(sizes)[:-1]))
+    ys = y[order]
+    ranges = np.maximum.reduceat(ys, starts) - np.minimum.reduceat(ys, starts)
+    ranges = np.where(sizes > 1, ranges, np.nan)
+    return _Groups(means, sizes, np.asarray(uniques, dtype=object), codes, ranges, stdevs)
+
+
+def _resolve_chart(chart: Any, groups: _Groups, subgrouped: bool, baseline: ChartBaseline | None) -> str:
+    valid = tuple(CHARTS)
+    if not isinstance(chart, str) or chart not in valid:
+        raise ConfigError(
+            f"The 'chart' parameter of control_chart must be one of {', '.join(repr(c) for c in valid)}. "
+            f"Got {chart!r} instead."
+        )
+    max_size = int(groups.sizes.max())
+    if chart == "auto":
+        if baseline is not None:
+            chart = baseline.chart
+        elif not subgrouped or max_size == 1:
+            chart = "individuals"
+        elif max_size <= AUTO_XBAR_R_MAX_SIZE:
+            chart = "xbar_r"
+        else:
+            chart = "xbar_s"
+    if baseline is not None and baseline.chart != chart:
+        raise ConfigError(
+            f"The baseline was frozen from a {_CHART_WORDS[baseline.chart]} chart, but chart={chart!r} "
+            "was asked for. Use the same chart type as the baseline, or chart='auto'."
+        )
+    if chart == "individuals" and max_size > 1:
+        raise ConfigError(
+            f"An individuals chart needs one value per subgroup, but some subgroups hold up to {max_size} "
+            "values. Choose chart='xbar_r' or 'xbar_s', or leave out the subgroups."
+        )
+    if chart != "individuals" and not subgrouped:
+        raise ConfigError(
+            f"A {_CHART_WORDS[chart]} chart needs subgroups: pass a subgroup label for each value, "
+            "or choose chart='individuals'."
+        )
+    if max_size > MAX_SUBGROUP_SIZE:
+        raise ConfigError(
+            f"The largest subgroup holds {max_size} values; control-chart constants are available up to "
+            f"{MAX_SUBGROUP_SIZE}. Split the subgroups or chart the subgroup means as individuals."
+        )
+    return chart
+
+
+def _estimate_sigma(chart: str, g: _Groups, ex: np.ndarray, mr: np.ndarray, mr_used: np.ndarray) -> tuple[float, str]:
+    """Within sigma for Phase I, and the name of the estimator."""
+    if chart == "individuals":
+        if not mr_used.any():
+            raise DataError(
+                "No moving range is left to estimate sigma: every pair of neighbouring values includes "
+                "an excluded point. Exclude fewer points."
+            )
+        mrbar = float(mr[mr_used].mean())
+        return mrbar / d2(2), "MR̄/d2(2), moving ranges of span 2 between non-excluded neighbours"
+    use = (~ex) & (g.sizes >= 2)
+    if not use.any():
+        raise DataError(
+            "No subgroup with two or more values is left to estimate the within-subgroup sigma. "
+            "Collect subgroups of at least 2 values or use an individuals chart."
+        )
+    sizes = g.sizes[use]
+    equal = bool(np.all(sizes == sizes[0]))
+    if chart == "xbar_r":
+        if equal:
+            return float(g.ranges[use].mean()) / d2(int(sizes[0])), f"R̄/d2({int(sizes[0])})"
+        lookup = {int(s): d2(int(s)) for s in np.unique(sizes)}
+        per = g.ranges[use] / np.array([lookup[int(s)] for s in sizes])
+        return float(per.mean()), "mean of R_i/d2(n_i) over subgroups (unequal sizes; ASTM E2587)"
+    if equal:
+        return float(g.stdevs[use].mean()) / c4(int(sizes[0])), f"s̄/c4({int(sizes[0])})"
+    dof = int((sizes - 1).sum())
+    sp = math.sqrt(float(((sizes - 1) * g.stdevs[use] ** 2).sum()) / dof)
+    return sp / c4(dof + 1), f"pooled s/c4(d+1), d = Σ(n_i − 1) = {dof} (unequal sizes; ASTM E2587)"
+
+
+def _dispersion_limits(chart: str, sizes: np.ndarray, sigma: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Centre, UCL, LCL of the dispersion chart per point, from sigma."""
+    if chart == "individuals":
+        k = np.full(sizes.size, 2)
+    else:
+        k = sizes
+    center = np.full(sizes.size, np.nan)
+    ucl = np.full(sizes.size, np.nan)
+    lcl = np.full(sizes.size, np.nan)
+    for s in np.unique(k):
+        if s < 2:
+            continue
+        sel = k == s
+        if chart == "xbar_s":
+            c = c4(int(s))
+            spread = 3.0 * math.sqrt(1.0 - c * c)
+        else:
+            c = d2(int(s))
+            spread = 3.0 * d3(int(s))
+        # R chart: (d2 ± 3 d3)σ = D4·R̄, D3·R̄ when σ = R̄/d2;  s chart: (c4 ± 3√(1−c4²))σ = B4·s̄, B3·s̄.
+        center[sel] = c * sigma
+        ucl[sel] = (c + spread) * sigma
+        lcl[sel] = max(0.0, c - spread) * sigma
+    return center, ucl, lcl
+
+
+def control_chart(
+    y: Any,
+    subgroups: Any = None,
+    *,
+    chart: str = "auto",
+    exclude: Any = (),
+    rules: str = "western_electric",
+    baseline: ChartBaseline | None = None,
+) -> ControlChart:
+    r"""Shewhart control chart of values on the (already) transformed scale.
+
+    Parameters
+    ----------
+    y : array_like
+        Values in time order, on the transformed scale.
+    subgroups : array_like, optional
+        A subgroup label per value. Subgroups are formed in order of first appearance
+        (labels need not be contiguous); values keep their order within each subgroup.
+    chart : {"auto", "individuals", "xbar_r", "xbar_s"}
+        "auto": individuals when there are no subgroups or all hold one value; X̄–R when
+        the largest subgroup holds at most 9 values; X̄–S above.
+    exclude : iterable of int, of (int, reason) pairs, or mapping {int: reason}
+        0-based chart points (observation for individuals, subgroup otherwise) to leave
+        out of the estimates (Phase I). They stay on the chart.
+    rules : {"western_electric", "nelson"}
+        Run-rule set for the points.
+    baseline : ChartBaseline, optional
+        Frozen centre and sigma: Phase II, nothing is re-estimated.
+
+    Returns
+    -------
+    ControlChart
+
+    Raises
+    ------
+    DataError
+        Non-finite values, fewer than :data:`MIN_POINTS` points left after exclusions,
+        labels that do not match the values, or no within-subgroup spread.
+    ConfigError
+        Unknown chart or rule set, a chart that does not fit the subgroups, an exclusion
+        that names a point the chart does not have.
+
+    Notes
+    -----
+    Individuals: σ = MR̄/d2(2), MR_i = |x_i − x_{i−1}|, limits x̄ ± 3σ; moving-range chart
+    centre MR̄, UCL D4(2)·MR̄, LCL 0.
+
+    X̄–R: σ = R̄/d2(n); with unequal sizes σ = mean_i R_i/d2(n_i).
+    X̄–S: σ = s̄/c4(n); with unequal sizes σ = s_p/c4(d + 1), s_p² = Σ(n_i−1)s_i²/d,
+    d = Σ(n_i − 1). Point limits X̄̄ ± 3σ/√n_i with X̄̄ the mean of all values not
+    excluded; R-chart limits (d2 ± 3d3)(n_i)σ (= D3·R̄, D4·R̄ for equal n), s-chart
+    limits (c4 ± 3√(1 − c4²))(n_i)σ (= B3·s̄, B4·s̄); lower limits clipped at 0.
+    Subgroups of one value get X̄ limits but no range or s.
+
+    References
+    ----------
+    Montgomery, D.C. Introduction to Statistical Quality Control, ch. 6 (X̄–R, X̄–S,
+    variable sample size, individuals) and Appendix VI.
+    ASTM E2587, Standard Practice for Use of Control Charts in Statistical Process Control
+    (unequal subgroup sizes, pooled standard deviation with c4(d + 1)).
+    NIST/SEMATECH e-Handbook of Statistical Methods, section 6.3.2.
+    """
+    yv = check_sample(y, "y", "control_chart", min_n=MIN_POINTS, allow_constant=True)
+    if baseline is not None and not isinstance(baseline, ChartBaseline):
+        if isinstance(baseline, Mapping):
+            baseline = ChartBaseline.from_dict(baseline)
+        else:
+            raise ConfigError(
+                "The 'baseline' parameter of control_chart must be a ChartBaseline (see "
+                f"ControlChart.to_baseline) or None. Got {type(baseline).__name__} instead."
+            )
+    if not isinstance(rules, str) or rules not in RULE_SETS:
+        raise ConfigError(
+            f"The 'rules' parameter of control_chart must be one of "
+            f"{', '.join(repr(k) for k in RULE_SETS)}. Got {rules!r} instead."
+        )
+    subgrouped = subgroups is not None
+    g = _group(yv, subgroups)
+    chart = _resolve_chart(chart, g, subgrouped, baseline)
+    n_pts = g.points.size
+    unit = "observation" if chart == "individuals" else "subgroup"
+    excluded = _parse_exclude(exclude, n_pts, unit)
+    ex = np.zeros(n_pts, dtype=bool)
+    ex[[e.index for e in excluded]] = True
+    n_kept = int((~ex).sum())
+    if n_kept < MIN_POINTS:
+        raise DataError(
+            f"A control chart needs at least {MIN_POINTS} {unit}s that are not excluded; "
+            f"got {n_kept} of {n_pts}. Collect more data or exclude fewer points."
+        )
+    warnings: list[str] = []
+
+    # Values not excluded, for the overall statistics.
+    value_kept = ~ex if g.codes is None else ~ex[g.codes]
+    kept_values = yv[value_kept]
+    n_used = int(kept_values.size)
+    grand_mean = float(kept_values.mean())
+    sigma_overall = float(kept_values.std(ddof=1)) if n_used >= 2 else math.nan
+
+    # Dispersion statistic per point.
+    if chart == "individuals":
+        disp = np.empty(n_pts)
+        disp[0] = np.nan
+        disp[1:] = np.abs(np.diff(g.points))
+        used = np.zeros(n_pts, dtype=bool)
+        used[1:] = ~ex[1:] & ~ex[:-1]
+    else:
+        disp = g.ranges if chart == "xbar_r" else g.stdevs
+        used = ~ex & (g.sizes >= 2)
+
+    if baseline is None:
+        phase = "I"
+        center = float(np.sum(g.points[~ex] * g.sizes[~ex]) / np.sum(g.sizes[~ex]))
+        sigma, method = _estimate_sigma(chart, g, ex, disp, used)
+        if not sigma > 0:
+            what = (
+                "every moving range between neighbouring values is zero"
+                if chart == "individuals"
+                else "the values within every subgroup are equal"
+            )
+            raise DataError(
+                f"The within-{unit} spread is zero ({_CHART_WORDS[chart]} chart): {what}, so there "
+                "is nothing to set control limits from. Check the gauge resolution or the column chosen."
+            )
+        if n_kept < RECOMMENDED_POINTS:
+            warnings.append(
+                f"Phase I limits from only {n_kept} {unit}s are rough; common practice is to use "
+                f"{RECOMMENDED_POINTS}–25 before freezing a baseline."
+            )
+    else:
+        phase = "II"
+        center = float(baseline.center)
+        sigma = float(baseline.sigma_within)
+        method = "from the frozen baseline (Phase II)"
+        if (
+            chart != "individuals"
+            and baseline.subgroup_size is not None
+            and np.any(g.sizes != baseline.subgroup_size)
+        ):
+            warnings.append(
+                f"Some subgroups differ from the baseline's size of {baseline.subgroup_size}; "
+                "their limits are computed for their own size."
+            )
+
+    if chart != "individuals":
+        if np.any(g.sizes == 1):
+            warnings.append(
+                f"{int(np.sum(g.sizes == 1))} subgroup(s) hold a single value: they are charted against "
+                "limits for one value and have no range or standard deviation."
+            )
+        if chart == "xbar_r" and int(g.sizes.max()) > 10:
+            warnings.append(
+                "Subgroups of more than 10 values: the range wastes information at that size; "
+                "the X̄–S chart is usually preferred (common practice)."
+            )
+    if excluded:
+        warnings.append(
+            f"{len(excluded)} {unit}(s) excluded from the estimates; they are still shown on the chart."
+        )
+
+    sigma_points = sigma / np.sqrt(g.sizes.astype(np.float64))
+    ucl = center + 3.0 * sigma_points
+    lcl = center - 3.0 * sigma_points
+
+    zpts = (g.points - center) / sigma_points
+    violations = run_rules(zpts, rules, excluded=ex)
+
+    d_center, d_ucl, d_lcl = _dispersion_limits(chart, g.sizes, sigma)
+    # Dispersion values touching an excluded point neither enter sigma nor signal.
+    flag_disp = used
+    with np.errstate(invalid="ignore"):
+        above = flag_disp & (disp > d_ucl)
+        below = flag_disp & (d_lcl > 0) & (disp < d_lcl)
+    stat = _DISPERSION_STATISTIC[chart]
+    stat_words = {"moving_range": "moving range", "range": "subgroup range", "stdev": "subgroup standard deviation"}[stat]
+    d_viol = []
+    for i in np.flatnonzero(above | below):
+        pts = (int(i) - 1, int(i)) if chart == "individuals" else (int(i),)
+        side = "above the upper" if above[i] else "below the lower"
+        d_viol.append(Violation("DISP", f"{stat_words} {side} control limit", int(i), pts))
+    dispersion = DispersionChart(
+        statistic=stat,
+        values=np.asarray(disp, dtype=np.float64),
+        center=d_center,
+        ucl=d_ucl,
+        lcl=d_lcl,
+        used=used,
+        violations=tuple(d_viol),
+    )
+
+    return ControlChart(
+        chart=chart,
+        phase=phase,
+        points=np.asarray(g.points, dtype=np.float64),
+        sizes=g.sizes,
+        labels=g.labels,
+        center=center,
+        ucl=ucl,
+        lcl=lcl,
+        sigma_within=float(sigma),
+        sigma_points=sigma_points,
+        dispersion=dispersion,
+        excluded=excluded,
+        violations=violations,
+        rules=rules,
+        sigma_overall=sigma_overall,
+        grand_mean=grand_mean,
+        n_values=int(yv.size),
+        n_used=n_used,
+        in_control=not violations and not d_viol,
+        sigma_method=method,
+        warnings=tuple(warnings),
+    )
+
+
+# ======================================================================================
+# Limits in measurement units
+# ======================================================================================
+
+
+def limits_in_units(chart: ControlChart, transform: Any) -> UnitsLimits:
+    """Back-transform a chart's centre, limits and points to measurement units.
+
+    Parameters
+    ----------
+    chart : ControlChart
+        A chart computed on the transformed scale.
+    transform : fitted transform
+        Object with ``inverse_transform(y)``, ``image`` -> (low, high) on the
+        transformed scale, and ``name``.
+
+    Returns
+    -------
+    UnitsLimits
+        Centre, limits per point and points in measurement units. Limits become
+        asymmetric about the centre. A limit at or beyond the edge of the transform's
+        image has no counterpart in measurement units: it is NaN and the note says so.
+
+    Notes
+    -----
+    For an individuals chart the points are the original values. For X̄ charts the
+    points are inverse_transform(mean of transformed values), and the limits in units
+    bound that back-transformed mean, not the arithmetic mean of the raw values.
+    Because the transform is monotone increasing, a point is outside its limits in
+    units exactly when it is outside them on the transformed scale.
+    """
+    if not isinstance(chart, ControlChart):
+        raise ConfigError(
+            f"The 'chart' parameter of limits_in_units must be a ControlChart. Got {type(chart).__name__} instead."
+        )
+    for attr in ("inverse_transform", "image"):
+        if not hasattr(transform, attr):
+            raise ConfigError(
+                f"The 'transform' parameter of limits_in_units must be a fitted transform with "
+                f"inverse_transform and image. Got {type(transform).__name__} without {attr!r}."
+            )
+    image = transform.image() if callable(transform.image) else transform.image
+    low, high = float(image[0]), float(image[1])
+    name = str(getattr(transform, "name", type(transform).__name__))
+
+    def back(v: np.ndarray) -> np.ndarray:
+        v = np.asarray(v, dtype=np.float64)
+        out = np.full(v.shape, np.nan)
+        inside = (v > low) & (v < high)
+        if inside.any():
+            out[inside] = np.asarray(transform.inverse_transform(v[inside]), dtype=np.float64)
+        return out
+
+    def note(v: np.ndarray, side: str) -> str | None:
+        outside = ~((v > low) & (v < high))
+        if not outside.any():
+            return None
+        where = "" if outside.all() else f" for {int(outside.sum())} of {outside.size} points"
+        return (
+            f"no {side} limit in measurement units{where}: the {side} limit falls outside what the "
+            f"transform ({name}) can reach"
+        )
+
+    center = back(np.array([chart.center]))[0]
+    return UnitsLimits(
+        center=float(center),
+        ucl=back(chart.ucl),
+        lcl=back(chart.lcl),
+        points=back(chart.points),
+        ucl_note=note(chart.ucl, "upper"),
+        lcl_note=note(chart.lcl, "lower"),
+        transform=name,
+    )
