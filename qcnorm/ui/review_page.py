@@ -1,0 +1,283 @@
+"""6 · Review: the supervisor's page — saved shifts awaiting review, their evidence, a decision.
+
+Opening a saved analysis shows what the technician saved (read back from the history
+store, its data fingerprint re-checked), the release checklist computed by
+:func:`qcnorm.checklist.review_checklist` from the stored analysis, the control chart of
+a re-run of :func:`qcnorm.analyze` on the stored measurements and settings (checked
+against the stored figures), the frozen baseline it was charted against and the
+earlier shifts of the same characteristic. The decision (approve / hold / reject) is
+recorded with the reviewer's name and a comment. Reviews are append-only: a changed
+decision is a new review that names the one it replaces.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pandas as pd
+import streamlit as st
+
+from .. import plots
+from ..checklist import review_checklist
+from ..errors import StoreError
+from ..store import DECISIONS, AnalysisRecord, HistoryStore
+from . import common
+from . import release_page as rp
+from . import release_state as rs
+
+__all__ = ["DECISION_LABELS", "awaiting_table", "evidence_table", "record_decision", "render"]
+
+_fmt = common.fmt
+DECISION_LABELS = {"approve": "Approve", "hold": "Hold", "reject": "Reject"}
+DECISION_ICON = {"approve": "🟢", "hold": "🟡", "reject": "🔴", None: "⚪"}
+
+
+def _when(iso: str | None) -> str:
+    return "—" if not iso else iso[:16].replace("T", " ") + " UTC"
+
+
+def _yes_no(v: Any) -> str:
+    return "—" if v is None else ("yes" if v else "NO")
+
+
+def awaiting_table(records: list[AnalysisRecord]) -> pd.DataFrame:
+    """One row per saved analysis (stored summary columns only)."""
+    rows = [{
+        "#": r.id,
+        "characteristic": r.characteristic,
+        "shift": r.shift,
+        "lot": r.lot,
+        "operator": r.operator,
+        "saved": _when(r.created_at),
+        "phase": r.analysis.get("phase"),
+        "n": r.n,
+        "in control": _yes_no(r.in_control),
+        "Cpk": r.cpk,
+        "Ppk": r.ppk,
+        "decision": (r.latest_review.decision if r.latest_review else "awaiting review"),
+    } for r in records]
+    return pd.DataFrame(rows, columns=["#", "characteristic", "shift", "lot", "operator", "saved",
+                                       "phase", "n", "in control", "Cpk", "Ppk", "decision"])
+
+
+def _ci(iv: Any) -> str:
+    if not isinstance(iv, dict) or iv.get("low") is None and iv.get("high") is None:
+        return "—"
+    return f"{_fmt(iv.get('low'), 3)} – {_fmt(iv.get('high'), 3)}"
+
+
+def evidence_table(d: dict[str, Any]) -> pd.DataFrame:
+    """Key figures of a stored analysis dict, as text (nothing is recomputed)."""
+    cap = d.get("capability") or {}
+    ctl = d.get("control") or {}
+    units = ctl.get("units") or {}
+    norm = d.get("normality") or {}
+    u = f" {d['units']}" if d.get("units") else ""
+    rows = [
+        ("Transform", f"{(d.get('transform') or {}).get('name', '—')}"),
+        ("Anderson–Darling p, raw data", _fmt((norm.get("raw") or {}).get("ad_p_value"), 3)),
+        ("Anderson–Darling p, after transform", _fmt((norm.get("transformed") or {}).get("ad_p_value"), 3)),
+        ("Chart", f"{ctl.get('chart', '—')}, {ctl.get('n_points', '—')} points, phase {ctl.get('phase', '—')}"),
+        ("Centre line", _fmt(units.get("center")) + u),
+        ("Control limits (LCL / UCL)", f"{_fmt(units.get('lcl'))} / {_fmt(units.get('ucl'))}{u}"),
+        ("Rule violations", str(len(ctl.get("violations") or []))),
+        ("Spec limits (LSL / USL)", f"{_fmt(cap.get('lsl'))} / {_fmt(cap.get('usl'))}{u}"),
+        ("Cpk (95 % interval)", f"{_fmt(cap.get('cpk'), 3)}  ({_ci(cap.get('cpk_ci'))})"),
+        ("Ppk (95 % interval)", f"{_fmt(cap.get('ppk'), 3)}  ({_ci(cap.get('ppk_ci'))})"),
+        ("Expected ppm out of spec (overall)", common.fmt_ppm(cap.get("ppm_overall"))),
+        ("Observed ppm out of spec", common.fmt_ppm(cap.get("ppm_observed"))),
+        ("Required index", _fmt(cap.get("required_index"), 3)),
+    ]
+    return pd.DataFrame(rows, columns=["figure", "value"])
+
+
+def record_decision(s: HistoryStore, record: AnalysisRecord, *, decision: str | None, reviewer: str,
+                    comment: str) -> tuple[bool, str]:
+    """Validate and save one review; returns (saved?, message). Nothing is saved on a problem."""
+    reviewer, comment = (reviewer or "").strip(), (comment or "").strip()
+    problems = []
+    if not reviewer:
+        problems.append("enter your name as reviewer")
+    if decision not in DECISIONS:
+        problems.append("choose approve, hold or reject")
+    elif decision in ("hold", "reject") and not comment:
+        problems.append(f"say in the comment why you {decision} it (what is needed next)")
+    if problems:
+        return False, "Decision not recorded: " + "; ".join(problems) + "."
+    prev = record.latest_review
+    rid = s.save_review(record.id, decision=decision, reviewer=reviewer, comment=comment,
+                        supersedes=None if prev is None else prev.id)
+    extra = f" It replaces review #{prev.id} ({prev.decision})." if prev is not None else ""
+    return True, (f"Review #{rid} recorded: **{DECISION_LABELS[decision]}** for analysis #{record.id} "
+                  f"({record.characteristic}, shift {record.shift or '—'}) by {reviewer}.{extra}")
+
+
+# --------------------------------------------------------------------------------------
+# sections
+# --------------------------------------------------------------------------------------
+
+
+def _pick(s: HistoryStore) -> AnalysisRecord | None:
+    st.toggle("Show every saved shift (also those already reviewed)", key="rs_show_reviewed")
+    show_all = bool(rs.get("rs_show_reviewed"))
+    records = s.list_analyses(awaiting_review=None if show_all else True, limit=200)
+    title = "Saved shifts" if show_all else "Awaiting review"
+    st.subheader(f"{title} ({len(records)})")
+    if not records:
+        st.info("Nothing is awaiting review." if not show_all else "Nothing has been saved yet.")
+        return None
+    st.dataframe(awaiting_table(records), hide_index=True, width="stretch",
+                 height=min(320, 38 + 35 * len(records)),
+                 column_config={"Cpk": st.column_config.NumberColumn(format="%.2f"),
+                                "Ppk": st.column_config.NumberColumn(format="%.2f")})
+    ids = [r.id for r in records]
+    by_id = {r.id: r for r in records}
+    if rs.get("rs_review_pick") not in ids:
+        st.session_state["rs_review_pick"] = ids[0]
+    st.selectbox("Open", ids, key="rs_review_pick",
+                 format_func=lambda i: f"#{i} · {by_id[i].characteristic} · shift {by_id[i].shift or '—'}"
+                 f" · {by_id[i].operator or '—'} · {_when(by_id[i].created_at)}")
+    return s.get_analysis(int(rs.get("rs_review_pick")))
+
+
+def _header(s: HistoryStore, r: AnalysisRecord) -> None:
+    d = r.analysis
+    st.markdown(f"### #{r.id} · {r.characteristic}" + (f" [{d.get('units')}]" if d.get("units") else ""))
+    c1, c2, c3, c4 = st.columns(4)
+    c1.markdown(f"**Shift** {r.shift or '—'}  \n**Lot** {r.lot or '—'}")
+    c2.markdown(f"**Operator** {r.operator or '—'}  \n**Saved** {_when(r.created_at)}")
+    c3.markdown(f"**Phase** {d.get('phase', '—')}  \n**Baseline** "
+                + (f"#{r.baseline_id}" if r.baseline_id else "none (Phase I)"))
+    c4.markdown(f"**n** {r.n:,}  \n**qcnorm** {r.qcnorm_version}")
+    ok = s.verify(r.id)
+    if ok:
+        st.caption(f"Data fingerprint SHA-256 `{r.data_sha256}` — re-checked now: the stored "
+                   "measurements are the ones that were saved.")
+    else:
+        st.error(f"The stored measurements no longer match their SHA-256 fingerprint ({r.data_sha256}). "
+                 "Do not release on this record; ask the technician to save the shift again.", icon="✋")
+    if r.note:
+        st.markdown(f"**Technician's note:** {r.note}")
+    if r.supersedes:
+        st.caption(f"This record is a correction: it replaces analysis #{r.supersedes}.")
+    if d.get("phase") == "II":
+        st.info("Phase II: charted against the frozen baseline; transform not refitted. "
+                + str((d.get("transform") or {}).get("reason") or ""), icon="🧊")
+
+
+def _baseline_and_earlier(s: HistoryStore, r: AnalysisRecord) -> None:
+    if r.baseline_id:
+        b = s.get_baseline(r.baseline_id)
+        st.caption(f"Frozen baseline #{b.id}: transform {b.transform}, {b.chart_type} chart, from {b.n:,} "
+                   f"values; frozen by {b.created_by} on {b.created_at[:10]} — {b.reason}")
+    h = s.history(r.characteristic)
+    earlier = h[h["id"] < r.id].tail(8)
+    if len(earlier):
+        st.markdown(f"**Earlier shifts of {r.characteristic}** (latest {len(earlier)}; all on page 7 · History)")
+        view = earlier[["id", "shift", "operator", "n", "transform", "cpk", "ppk", "in_control",
+                        "violations", "decision"]].rename(columns={"id": "#", "in_control": "in control"})
+        st.dataframe(view, hide_index=True, width="stretch",
+                     column_config={"cpk": st.column_config.NumberColumn("Cpk", format="%.2f"),
+                                    "ppk": st.column_config.NumberColumn("Ppk", format="%.2f")})
+    else:
+        st.caption(f"No earlier shifts of {r.characteristic} in the history.")
+
+
+def _chart(s: HistoryStore, r: AnalysisRecord) -> None:
+    rep = rp.reproduce(s, r)
+    if rep.mismatches:
+        st.warning("The re-run of this analysis from its stored measurements and settings does not "
+                   f"reproduce the stored figures ({', '.join(rep.mismatches)}); the chart and the PDF "
+                   "below come from the re-run (qcnorm " + str(rep.analysis.version) + "), the table and "
+                   f"checklist from the stored record (qcnorm {r.qcnorm_version}).", icon="⚠")
+    st.plotly_chart(plots.control_figure(rep.analysis), width="stretch", key=f"rs_review_chart_{r.id}")
+    if not rep.mismatches:
+        st.caption("Chart re-drawn from the stored measurements and settings; the re-run reproduces the "
+                   "stored figures (n, transform, limits, Cpk, Ppk, Anderson–Darling p).")
+
+
+def _trail(s: HistoryStore, r: AnalysisRecord) -> None:
+    reviews = s.reviews_for(r.id)
+    if not reviews:
+        st.caption("No decision recorded yet.")
+        return
+    st.markdown("**Decisions recorded** (oldest first; none is ever changed or deleted)")
+    for v in reviews:
+        rep = f" — replaces review #{v.supersedes}" if v.supersedes else ""
+        st.markdown(f"{DECISION_ICON.get(v.decision, '⚪')} Review #{v.id}: **{DECISION_LABELS.get(v.decision, v.decision)}** "
+                    f"by {v.reviewer}, {_when(v.created_at)}{rep}  \n> {v.comment or '(no comment)'}")
+
+
+def _decision_form(s: HistoryStore, r: AnalysisRecord) -> None:
+    st.subheader("Decision")
+    prev = r.latest_review
+    if prev is not None:
+        st.caption(f"Already decided ({DECISION_LABELS.get(prev.decision, prev.decision)} by {prev.reviewer}). "
+                   f"A new decision is recorded as a correction that replaces review #{prev.id}.")
+    with st.form(f"rs_review_form_{r.id}"):
+        c1, c2 = st.columns([1, 2])
+        c1.text_input("Reviewer (your name) *", key="rs_reviewer")
+        c2.radio("Decision *", list(DECISION_LABELS), key="rs_decision", horizontal=True,
+                 format_func=DECISION_LABELS.get,
+                 help="; ".join(f"{DECISION_LABELS[k]}: {v}" for k, v in DECISIONS.items()))
+        st.text_area("Comment", key="rs_comment", height=90,
+                     placeholder="What you checked and why you decided so (required for hold and reject)")
+        go_ = st.form_submit_button("Record decision", type="primary")
+    if not go_:
+        return
+    try:
+        ok, msg = record_decision(s, r, decision=rs.get("rs_decision"), reviewer=rs.get("rs_reviewer"),
+                                  comment=rs.get("rs_comment"))
+    except StoreError as exc:
+        st.error(f"Decision not recorded — the history database did not accept it. Nothing already "
+                 f"saved was changed, and your entries are still in the form. {exc}", icon="✋")
+        return
+    if not ok:
+        st.error(msg, icon="✋")
+        return
+    rs.flash("success", msg)
+    for k in ("rs_decision", "rs_comment"):
+        st.session_state.pop(k, None)
+    st.rerun()
+
+
+def render() -> None:
+    rs.init()
+    rs.remember()
+    rp.show_flash()
+    s = common.guard(rp.store)
+    if s is None:
+        st.info("The history database cannot be opened, so there is nothing to review now.")
+        return
+    rp.show_database(s)
+    r = common.guard(_pick, s)
+    if r is None:
+        return
+    st.divider()
+    _header(s, r)
+    left, right = st.columns([1.1, 1], gap="large")
+    with left:
+        rp.render_checklist(review_checklist(r.analysis))
+        verdict = (r.analysis.get("capability") or {}).get("verdict_text")
+        if verdict:
+            st.caption(verdict)
+        for w in r.analysis.get("warnings") or []:
+            st.caption(f"⚑ {w}")
+    with right:
+        st.dataframe(evidence_table(r.analysis), hide_index=True, width="stretch")
+    common.guard(_chart, s, r)
+    common.guard(_baseline_and_earlier, s, r)
+    common.guard(_trail, s, r)
+    common.guard(_decision_form, s, r)
+    st.subheader("PDF summary")
+    st.caption("Re-made from the stored measurements and settings, with the latest decision.")
+    ident = ("saved", s.url, r.id, None if r.latest_review is None else r.latest_review.id)
+
+    def _make() -> tuple[bytes, str]:
+        pdf, name, bad = rp.saved_pdf(s, r)
+        if bad:
+            st.warning("The PDF comes from a re-run that does not reproduce every stored figure "
+                       f"({', '.join(bad)}).")
+        return pdf, name
+
+    rp.pdf_section("rs_saved_pdf", ident, _make)
