@@ -21,6 +21,8 @@ with st.sidebar:
         "Step", registry.page_keys(), key="qc_page",
         format_func=lambda k: registry.page(k).title, label_visibility="collapsed",
     )
-    common.sidebar_summary()
+    summary = st.container()
 
 common.run_page(registry.page(state.get("qc_page")))
+with summary:  # drawn after the page, so it shows what the page just loaded
+    common.sidebar_summary()

@@ -25,7 +25,7 @@ import numpy as np
 import plotly.graph_objects as go
 
 __all__ = [
-    "PALETTE", "Bins", "histogram_bins", "histogram_figure", "probability_figure",
+    "PALETTE", "Bins", "display_name", "histogram_bins", "histogram_figure", "probability_figure",
     "control_figure", "dispersion_figure", "capability_figure", "ranking_figure",
 ]
 
@@ -80,9 +80,11 @@ def histogram_bins(x: Any, max_bins: int = MAX_BINS) -> Bins:
     if v.size == 0:
         return Bins(np.array([0.0, 1.0]), np.array([0]))
     lo, hi = float(v.min()), float(v.max())
-    if hi - lo <= 1e-12 * max(1.0, abs(lo)):
-        half = 0.5 if lo == 0 else 0.05 * abs(lo)
-        edges = np.array([lo - half, lo + half])
+    if hi - lo <= 1e-12 * max(1.0, abs(lo), abs(hi)):
+        # (nearly) constant: one bin around the values, wide enough to hold them all
+        mid = 0.5 * (lo + hi)
+        half = max(hi - lo, 0.05 * max(abs(lo), abs(hi))) or 0.5
+        edges = np.array([mid - half, mid + half])
     else:
         edges = np.histogram_bin_edges(v, bins="auto")
         if edges.size - 1 > max_bins:
@@ -101,10 +103,11 @@ def _layout(fig: go.Figure, title: str, xtitle: str, ytitle: str, height: int = 
         title=dict(text=title, x=0.0, xanchor="left", font=dict(size=15)),
         font=_FONT,
         height=height,
-        margin=dict(l=60, r=20, t=56, b=80),
+        margin=dict(l=64, r=20, t=56, b=110),
         paper_bgcolor=PALETTE["paper"],
         plot_bgcolor=PALETTE["paper"],
-        legend=dict(orientation="h", yanchor="top", y=-0.2, x=0.0, font=dict(size=12)),
+        legend=dict(orientation="h", yref="container", yanchor="bottom", y=0.0, x=0.0,
+                    font=dict(size=12)),
         hoverlabel=dict(font_size=12),
         bargap=0.04,
     )
@@ -113,6 +116,15 @@ def _layout(fig: go.Figure, title: str, xtitle: str, ytitle: str, height: int = 
     fig.update_yaxes(title_text=ytitle, showgrid=True, gridcolor=PALETTE["grid"], zeroline=False,
                      showline=True, linecolor="#B8C1C6", ticks="outside")
     return fig
+
+
+def display_name(analysis: Any) -> str:
+    """The characteristic's name without the units its header carried ("Ra [µm]" -> "Ra")."""
+    name = str(getattr(analysis, "characteristic", None) or "value")
+    for sep in (" [", " ("):
+        if sep in name:
+            name = name.split(sep, 1)[0]
+    return name.strip() or "value"
 
 
 def _units(units: str | None) -> str:
@@ -284,11 +296,11 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
     if analysis.transform.name != "none":
         title += " · limits from the transformed scale"
     _layout(fig, title, "point (time order)" if ch.chart == "individuals" else "subgroup (time order)",
-            f"{analysis.characteristic or 'value'}{_units(units)}", height=height)
+            f"{display_name(analysis)}{_units(units)}", height=height)
     return fig
 
 
-def dispersion_figure(analysis: Any, *, height: int = 280) -> go.Figure:
+def dispersion_figure(analysis: Any, *, height: int = 320) -> go.Figure:
     """The companion chart of spread, on the scale the chart was computed on."""
     ch = analysis.chart
     d = ch.dispersion
@@ -330,7 +342,8 @@ def dispersion_figure(analysis: Any, *, height: int = 280) -> go.Figure:
         ))
     scale = "transformed scale" if analysis.transform.name != "none" else (analysis.units or "units")
     _layout(fig, f"{name} chart ({scale})", "point" if ch.chart == "individuals" else "subgroup",
-            f"{name.lower()} ({scale})", height=height)
+            name.split()[-1] if analysis.transform.name == "none" else f"{name.split()[-1]} (transformed)",
+            height=height)
     return fig
 
 
@@ -394,7 +407,7 @@ def capability_figure(analysis: Any, *, height: int = 380) -> go.Figure:
     else:
         s = analysis.settings
         limits = {"LSL": s.lsl, "USL": s.usl, "Target": s.target}
-    name = analysis.characteristic or "value"
+    name = display_name(analysis)
     fig = histogram_figure(analysis.values, title=f"{name}: measurements against the specification",
                            xtitle=f"{name}{_units(analysis.units)}", limits=limits)
     perc = analysis.percentile

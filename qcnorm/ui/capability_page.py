@@ -92,7 +92,7 @@ def render() -> None:
         return
     if not a.chart.in_control:
         st.warning("Capability is not meaningful while the process is unstable: the control chart shows "
-                   "signals of special causes (see 3 · Stability).", icon="⚠")
+                   "signals of special causes (see 3 · Stability).", icon=":material/warning:")
     words, box = VERDICT_WORDS.get(cap.verdict, (cap.verdict, st.info))
     box(f"**Verdict:** {cap.verdict_text}")
     st.markdown(plain_words(a))

@@ -52,10 +52,10 @@ def style() -> None:
 def show_error(exc: BaseException) -> None:
     """One short message: the core's own words for user problems, an apology otherwise."""
     if isinstance(exc, QcnormError):
-        st.error(str(exc), icon="✋")
+        st.error(str(exc), icon=":material/front_hand:")
     else:
         log.exception("qcnorm internal error on the page")
-        st.error(f"{APOLOGY} (internal detail: {type(exc).__name__})", icon="🛠")
+        st.error(f"{APOLOGY} (internal detail: {type(exc).__name__})", icon=":material/build:")
 
 
 def guard(fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:

@@ -180,11 +180,12 @@ def _specs_section() -> None:
     st.subheader("Specification")
     c1, c2, c3, c4 = st.columns(4)
     u = state.get("qc_units") or ""
-    c1.number_input(f"Lower spec limit (LSL){' ' + u if u else ''}", key="qc_lsl", format="%g",
-                    step=None, help="Leave blank for a one-sided upper specification.")
-    c2.number_input(f"Upper spec limit (USL){' ' + u if u else ''}", key="qc_usl", format="%g",
-                    step=None, help="Leave blank for a one-sided lower specification.")
-    c3.number_input(f"Target{' ' + u if u else ''}", key="qc_target", format="%g", step=None,
+    u = f" [{u}]" if u else ""
+    c1.number_input(f"LSL{u}", key="qc_lsl", format="%g", step=None,
+                    help="Lower spec limit. Leave blank for a one-sided upper specification.")
+    c2.number_input(f"USL{u}", key="qc_usl", format="%g", step=None,
+                    help="Upper spec limit. Leave blank for a one-sided lower specification.")
+    c3.number_input(f"Target{u}", key="qc_target", format="%g", step=None,
                     help="Optional; used for Cpm.")
     c4.number_input("Required index", key="qc_required_index", min_value=0.5, max_value=5.0,
                     step=0.01, format="%.2f", help="The customer's or site's minimum Cpk/Ppk, e.g. 1.33.")

@@ -28,8 +28,9 @@ def _controls() -> None:
     c1.selectbox("Transform", list(TRANSFORM_LABELS), key="qc_transform", format_func=TRANSFORM_LABELS.get,
                  help="Automatic ranks every candidate; choose one yourself to override. Every later "
                       "step (limits, capability) follows this choice.")
-    c2.checkbox("Round Box–Cox λ to a convenient value (−1, −½, 0, ½, 1, 2) when inside its interval",
-                key="qc_round_lambda")
+    c2.markdown("&nbsp;")
+    c2.checkbox("Round Box–Cox λ", key="qc_round_lambda",
+                help="Use a convenient λ (−1, −½, 0, ½, 1, 2) when it lies inside λ's 95 % interval.")
 
 
 def normality_table(a) -> pd.DataFrame:
@@ -73,13 +74,13 @@ def render() -> None:
     a = compute.current_analysis()
     if a is None:
         return
-    name = a.characteristic or "value"
+    name = plots.display_name(a)
     units = a.units
     u = f" [{units}]" if units else ""
     tr = a.transform
 
     st.markdown(f"**Transform used:** {tr.describe()}")
-    st.info(a.transform_reason, icon="💬")
+    st.info(a.transform_reason, icon=":material/lightbulb:")
     if a.transform_choice is not None:
         for note in a.transform_choice.notes:
             st.caption(f"Note: {note}")

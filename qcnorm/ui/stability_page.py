@@ -128,11 +128,11 @@ def render() -> None:
         return
     ch = a.chart
     if ch.in_control:
-        st.success("No signal of special causes: the process is in statistical control on this chart.", icon="✅")
+        st.success("No signal of special causes: the process is in statistical control on this chart.", icon=":material/check_circle:")
     else:
         k = len(ch.violations) + len(ch.dispersion.violations)
         st.warning(f"{k} signal{'s' if k != 1 else ''} of special causes: the process is not in statistical "
-                   "control. Find the causes; exclude a point below only when its cause is known.", icon="⚠")
+                   "control. Find the causes; exclude a point below only when its cause is known.", icon=":material/warning:")
     _limits_row(a)
     m = compute.current_measurements()
     st.plotly_chart(plots.control_figure(a, hover=_point_hover(a, m)), width="stretch", key="chart_main")

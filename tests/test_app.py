@@ -1,0 +1,170 @@
+"""The app's flow with Streamlit's AppTest: the numbers shown are the core's numbers.
+
+Each expected value is computed here by the core itself — qcnorm.data.read_measurements
+and qcnorm.analyze on the same bytes and options — and compared with what the page
+shows (DESIGN.md: "Statistics are computed once, in the core"; the UI computes none).
+Bad files must give an error element and never an exception on the page (issue 5).
+"""
+
+from __future__ import annotations
+
+import io
+from pathlib import Path
+
+import numpy as np
+import pytest
+from streamlit.testing.v1 import AppTest
+
+from qcnorm.analysis import analyze
+from qcnorm.data import read_measurements
+from qcnorm.ui.common import fmt
+
+ROOT = Path(__file__).resolve().parents[1]
+APP = str(ROOT / "app.py")
+WIDE = ROOT / "demo_data" / "line3_spool_wide.csv"
+TIMEOUT = 60
+
+
+def _app() -> AppTest:
+    return AppTest.from_file(APP, default_timeout=TIMEOUT)
+
+
+def _go(at: AppTest, key: str) -> AppTest:
+    at.sidebar.radio(key="qc_page").set_value(key).run()
+    assert not at.exception, [e.value for e in at.exception]
+    return at
+
+
+def _metrics(at: AppTest) -> dict[str, str]:
+    return {m.label: m.value for m in at.metric}
+
+
+def _upload(at: AppTest, name: str, data: bytes, mime: str = "text/csv") -> AppTest:
+    at.radio(key="qc_source_kind").set_value("upload").run()
+    at.file_uploader(key="qc_upload").set_value((name, data, mime)).run()
+    assert not at.exception, [e.value for e in at.exception]
+    return at
+
+
+def _csv(rng: np.random.Generator, n: int = 80) -> tuple[bytes, np.ndarray]:
+    x = np.round(rng.lognormal(np.log(3.0), 0.4, n), 3)
+    lines = ["Part,Batch,Gap (mm)"] + [f"P{i},B{i // 4},{v}" for i, v in enumerate(x)]
+    lines[11] = "P10,B2,n/a"  # one unreadable cell: must show in the ingest report
+    return ("\n".join(lines) + "\n").encode(), x
+
+
+def test_demo_loads_and_every_page_shows_the_cores_numbers():
+    at = _app().run()
+    assert not at.exception and not at.error
+    # demo specs pre-filled from demo_data/line3_spool_specs.csv (Ra: USL 1.6, one-sided)
+    assert at.number_input(key="qc_usl").value == pytest.approx(1.6)
+    assert at.number_input(key="qc_lsl").value is None
+    pick = at.selectbox(key="qc_pick").value
+    m = read_measurements(WIDE, column=pick, subgroup="Subgroup", order="Time")
+    a = analyze(m, usl=1.6, units="µm")
+    assert _metrics(at)["Values used"] == f"{m.n:,}"
+    assert any("authorised person" in c.value for c in at.caption)
+
+    _go(at, "shape")
+    assert any(a.transform.describe() in md.value for md in at.markdown)
+    assert any(a.transform_reason == i.value for i in at.info)
+
+    _go(at, "stability")
+    shown = _metrics(at)
+    assert shown["Centre line"] == f"{fmt(a.limits_units.center)} µm"
+    assert shown["Signals"] == str(len(a.chart.violations) + len(a.chart.dispersion.violations))
+    assert any("authorised person" in c.value for c in at.caption)
+
+    _go(at, "capability")
+    shown = _metrics(at)
+    assert shown["Cpk"] == fmt(a.capability.cpk, 3)
+    assert shown["Ppk"] == fmt(a.capability.ppk, 3)
+    text = " ".join(md.value for md in at.markdown)
+    if not a.in_control:
+        assert "capability is not meaningful while the process is unstable" in text
+    assert any(a.capability.verdict_text in e.value for e in list(at.error) + list(at.warning) + list(at.success))
+
+
+def test_upload_choose_column_specs_override_and_exclude(rng):
+    data, _ = _csv(rng)
+    at = _upload(_app().run(), "gaps.csv", data)
+    assert at.selectbox(key="qc_pick").value == "Gap (mm)"
+    # choose the subgroup column "none" -> individuals; enter specs
+    at.selectbox(key="qc_subgroup").set_value(None)
+    at.number_input(key="qc_lsl").set_value(1.0)
+    at.number_input(key="qc_usl").set_value(9.0)
+    at.number_input(key="qc_target").set_value(3.0).run()
+    assert not at.exception and not at.error
+    assert _metrics(at)["Values left out"] == "1"
+    assert any("n/a" in str(df.value.to_string()) for df in at.dataframe)  # excluded row shown
+
+    m = read_measurements(io.BytesIO(data), column="Gap (mm)")
+    assert m.n == 79
+
+    # override the transform on the Shape page
+    _go(at, "shape")
+    at.selectbox(key="qc_transform").set_value("boxcox").run()
+    assert not at.exception
+    a = analyze(m, lsl=1.0, usl=9.0, target=3.0, transform="boxcox", units="mm")
+    assert a.transform.name == "boxcox"
+    assert any(a.transform.describe() in md.value for md in at.markdown)
+
+    _go(at, "capability")
+    assert _metrics(at)["Cpk"] == fmt(a.capability.cpk, 3)
+    tbl = at.dataframe[0].value
+    assert tbl.loc[tbl["index"] == "Pp", "estimate"].item() == fmt(a.capability.pp, 3)
+
+    # exclude a point as an assignable cause -> Phase I re-estimate by the core
+    _go(at, "stability")
+    at.multiselect(key="qc_exclude_pick").set_value([4])
+    at.text_input(key="qc_exclude_reason").set_value("probe not seated")
+    [b for b in at.button if b.label.startswith("Exclude")][0].click().run()
+    assert not at.exception
+    assert at.session_state["qc_exclusions"] == {4: "probe not seated"}
+    a2 = analyze(m, lsl=1.0, usl=9.0, target=3.0, transform="boxcox", units="mm",
+                 exclude={4: "probe not seated"})
+    assert _metrics(at)["Centre line"] == f"{fmt(a2.limits_units.center)} mm"
+    assert a2.limits_units.center != a.limits_units.center
+    _go(at, "capability")
+    assert _metrics(at)["Cpk"] == fmt(a2.capability.cpk, 3)
+
+
+@pytest.mark.parametrize("name,data", [
+    ("photo.csv", b"\x89PNG\r\n\x1a\n" + bytes(range(256)) * 8),
+    ("empty.csv", b""),
+    ("words.csv", b"name,comment\nalpha,good\nbeta,bad\n"),
+    ("short.csv", b"x\n1.0\n2.0\n"),
+    ("book.xlsx", b"PK\x03\x04 this is not really a workbook"),
+])
+def test_bad_files_show_an_error_and_no_exception(name, data):
+    at = _upload(_app().run(), name, data)
+    for page in ("load", "shape", "stability", "capability"):
+        if page != "load":
+            _go(at, page)
+        assert not at.exception
+    # on some page the user was told what is wrong
+    at = _upload(_app().run(), name, data)
+    msgs = [e.value for e in at.error]
+    _go(at, "shape")
+    msgs += [e.value for e in at.error]
+    assert msgs, "a bad file must produce an error message"
+    assert all("Traceback" not in m for m in msgs)
+
+
+def test_inconsistent_specs_show_the_cores_message():
+    at = _app().run()
+    at.number_input(key="qc_lsl").set_value(5.0)
+    at.number_input(key="qc_usl").set_value(1.0).run()
+    _go(at, "capability")
+    assert not at.exception
+    assert any("lower spec limit" in e.value.lower() for e in at.error)
+
+
+def test_paste_from_spreadsheet():
+    at = _app().run()
+    at.radio(key="qc_source_kind").set_value("paste").run()
+    vals = "\n".join(f"{v:.3f}" for v in np.random.default_rng(5).gamma(4.0, 0.5, 40))
+    at.text_area(key="qc_paste").set_value("Torque\n" + vals).run()
+    [b for b in at.button if b.label.startswith("Use the pasted")][0].click().run()
+    assert not at.exception and not at.error
+    assert _metrics(at)["Values used"] == "40"
