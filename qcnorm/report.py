@@ -7,10 +7,13 @@ laid out with fpdf2 in the DejaVu Sans font so µ σ ≤ ≥ λ – print as the
 
 The report draws only what the Analysis holds. Every number printed comes from
 ``Analysis.to_dict()`` (the JSON contract) through one formatting helper,
-:func:`fmt`; the arrays drawn (values, transformed values, chart points, limits,
-probability-plot data) come from the Analysis's result objects. The only arithmetic
-here is drawing: histogram bin edges and counts (numpy), and scaling figures to the
-page.
+:func:`fmt`; the checklist comes from :func:`qcnorm.checklist.review_checklist`; the
+arrays drawn (values, transformed values, chart points and limits in units, the
+dispersion chart) come from the Analysis's result objects. Two pieces of drawing data
+come from the core's own functions rather than from the Analysis: histogram bins from
+:func:`qcnorm.plots.histogram_bins` (the same bins the app shows; every value counted)
+and the probability-plot points and band from :func:`qcnorm.normality.probability_plot`.
+No statistic is computed in this module.
 
 Determinism: the same Analysis, meta and review give byte-identical PDFs. The PDF
 creation date is the report date when given (else a fixed epoch), the PNGs carry no
@@ -46,6 +49,10 @@ __all__ = [
     "SECTION_TITLES",
     "CAUTION_TEXT",
     "PAGE_SIZES",
+    "NORMALITY_ROWS",
+    "CANDIDATE_COLUMNS",
+    "CHART_NAMES",
+    "RULE_NAMES",
 ]
 
 #: Page formats accepted by ``page=``, with their size in mm (portrait).
@@ -68,6 +75,9 @@ CAUTION_TEXT = (
     "These figures are decision support. Release of a lot follows the site's quality system, "
     "the customer's requirements and applicable regulations, and is decided by an authorised person."
 )
+
+#: How the chart types are named in the report.
+CHART_NAMES = {"individuals": "individuals and moving range", "xbar_r": "X̄ and R", "xbar_s": "X̄ and S"}
 
 #: How the run-rule sets are named in the report.
 RULE_NAMES = {"western_electric": "Western Electric", "nelson": "Nelson"}
@@ -145,7 +155,7 @@ def fmt(v: Any, kind: str = "value") -> str:
         ``value``: 4 significant digits (measurements, limits); ``index``: capability
         indices, 2 decimals (the trade's convention); ``p``: p-values, 3 significant digits and
         "< 0.0001" below 1e-4; ``ppm``: whole numbers from 100 up with thousands
-        separators, else 3 significant digits; ``int``: integers; ``stat``: test
+        separators, "< 0.01" below 0.01, else 3 significant digits; ``int``: integers; ``stat``: test
         statistics, 4 significant digits.
     """
     if v is None:
@@ -167,6 +177,8 @@ def fmt(v: Any, kind: str = "value") -> str:
     if kind == "ppm":
         if x == 0:
             return "0"
+        if abs(x) < 0.01:
+            return "< 0.01"
         return f"{x:,.0f}" if abs(x) >= 100 else f"{x:.3g}"
     if kind in ("value", "stat"):
         return f"{x:.4g}"
@@ -174,9 +186,13 @@ def fmt(v: Any, kind: str = "value") -> str:
 
 
 # ----------------------------------------------------------------------------- fonts
+#: Where the Debian package fonts-dejavu-core puts DejaVu Sans (tried first).
+SYSTEM_FONT_DIR = Path("/usr/share/fonts/truetype/dejavu")
+
+
 def _font_paths() -> tuple[str, str]:
-    debian = Path("/usr/share/fonts/truetype/dejavu")
-    reg, bold = debian / "DejaVuSans.ttf", debian / "DejaVuSans-Bold.ttf"
+    """DejaVu Sans regular and bold: the system copy, else matplotlib's bundled copy."""
+    reg, bold = SYSTEM_FONT_DIR / "DejaVuSans.ttf", SYSTEM_FONT_DIR / "DejaVuSans-Bold.ttf"
     if reg.is_file() and bold.is_file():
         return str(reg), str(bold)
     import matplotlib
@@ -315,8 +331,7 @@ def _fig_chart(view: "_View", width_mm: float) -> bytes:
     exc = [i for i in cs["excluded_points"] if 0 <= i < x.size]
     if exc:
         ax.plot(x[exc], cs["points"][exc], "x", markersize=6, color=_COL["excluded"], label="excluded")
-    notes = [n for n in (cs.get("lcl_note"), cs.get("ucl_note")) if n]
-    ax.set_title(f"{cs['title']}" + (" — " + "; ".join(notes) if notes else ""), loc="left", wrap=True)
+    ax.set_title(cs["title"], loc="left")
     ax.set_ylabel(view.units_label)
     ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False)
 
@@ -351,12 +366,6 @@ def _get(obj: Any, *names: str, default: Any = None) -> Any:
         if v is not None:
             return v
     return default
-
-
-def _arr(v: Any) -> np.ndarray | None:
-    if v is None:
-        return None
-    return np.asarray(v, dtype=float)
 
 
 class _View:
@@ -744,8 +753,7 @@ def _sec_data(w: _Writer, v: _View) -> None:
     rows = [
         ("Values analysed (n)", fmt(d.get("n"), "int")),
         ("Chart points", fmt(c.get("n_points"), "int")),
-        ("Chart", str(c.get("chart") or _DASH).replace("_", "–") if c.get("chart") in ("xbar_r", "xbar_s")
-         else str(c.get("chart") or _DASH)),
+        ("Chart", CHART_NAMES.get(str(c.get("chart")), str(c.get("chart") or _DASH))),
         ("Phase", str(d.get("phase") or "I")),
         ("Rows excluded", fmt(len(d.get("excluded") or []), "int")),
     ]

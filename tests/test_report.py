@@ -23,7 +23,6 @@ import subprocess
 import sys
 from pathlib import Path
 
-import numpy as np
 import pytest
 from pypdf import PdfReader
 
@@ -189,10 +188,21 @@ def test_fmt_is_the_one_formatting_rule():
     assert fmt(None) == fmt(float("nan")) == "—"
     assert fmt(1.3333, "index") == "1.33"
     assert fmt(2.7e-6, "p") == "< 0.0001" and fmt(0.0512, "p") == "0.0512"
-    assert fmt(2699.8, "ppm") == "2,700" and fmt(0.5397, "ppm") == "0.54" and fmt(0.0, "ppm") == "0"
+    assert fmt(2699.8, "ppm") == "2,700" and fmt(0.5397, "ppm") == "0.54" and fmt(0.0, "ppm") == "0" and fmt(5.2e-146, "ppm") == "< 0.01"
     assert fmt(50.81234) == "50.81"
     with pytest.raises(ConfigError, match="value, index, p, ppm, int, stat"):
         fmt(1.0, "percent")
+
+
+def test_font_falls_back_to_matplotlibs_dejavu(monkeypatch, tmp_path):
+    import matplotlib
+
+    import qcnorm.report as report
+
+    monkeypatch.setattr(report, "SYSTEM_FONT_DIR", tmp_path / "no-fonts-here")
+    reg, bold = report._font_paths()
+    assert Path(reg).is_relative_to(Path(matplotlib.get_data_path()))
+    assert Path(reg).name == "DejaVuSans.ttf" and Path(bold).name == "DejaVuSans-Bold.ttf"
 
 
 # ----------------------------------------------------------------------------- rendering
@@ -341,7 +351,7 @@ def test_checklist_on_real_analyses_agrees_with_the_core(ra_analysis, shift_anal
 
 
 # ----------------------------------------------------------------------------- CLI
-def test_cli_writes_the_pdf(tmp_path):
+def test_cli_writes_the_pdf(tmp_path, shift_analysis):
     out = tmp_path / "out.pdf"
     r = subprocess.run(
         [sys.executable, "-m", "qcnorm", "analyze", str(DEMO / "line3_spool_last_shift.csv"),
@@ -351,4 +361,11 @@ def test_cli_writes_the_pdf(tmp_path):
     assert r.returncode == 0, r.stderr
     data = out.read_bytes()
     assert data.startswith(b"%PDF-") and data.rstrip().endswith(b"%%EOF")
-    assert SECTION_TITLES["capability"] in _flat(_text(data))
+    text = _flat(_text(data))
+    assert SECTION_TITLES["capability"] in text
+    # the same analysis as analyze() gives in-process: its capability outcome is printed
+    cap = shift_analysis.capability
+    if cap is None or cap.verdict == "not_assessed":
+        assert "Capability was not assessed" in text
+    else:
+        assert _flat(cap.verdict_text) in text
