@@ -615,13 +615,14 @@ def run_rules(z: Any, rules: str = "western_electric", *, excluded: Any = None) 
     if zc.size == 0:
         return ()
 
-    orig_list = orig.tolist()
+    contiguous = orig.size == zz.size  # nothing excluded: compressed index = point index
+    orig_list: Any = range(zz.size) if contiguous else orig.tolist()
     ends_all, order_all, made = [], [], []
     for order, (_, fn) in enumerate(table):
         hit = fn(zc)
         ends, starts = hit.ends.tolist(), hit.starts.tolist()
         if hit.qual is None:
-            pts = [tuple(orig_list[a : b + 1]) for a, b in zip(starts, ends)]
+            pts = [tuple(orig_list[a : b + 1]) for a, b in zip(starts, ends)]  # range slices too
         else:
             # report the points of the window beyond the level on the pattern's side
             width = int(hit.ends[0] - hit.starts[0] + 1) if hit.ends.size else 0

@@ -243,7 +243,6 @@ def test_auto_chart_choice_and_subgroup_order(rng):
 # Run rules: hand-built sequences that trip exactly one rule each
 # --------------------------------------------------------------------------------------
 
-WE_QUIET = [0.2, -0.2]
 NB = [0.3, 0.6, -0.4, 1.5, -0.2, -0.5]  # quiet for every Nelson test
 
 RULE_CASES = {
