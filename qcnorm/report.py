@@ -30,6 +30,7 @@ from __future__ import annotations
 import datetime as _dt
 import io
 import math
+import threading
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -225,20 +226,36 @@ def _new_figure(width_mm: float, height_mm: float, nrows: int, ncols: int, **kw:
     return fig, axes
 
 
+_STYLE_LOCK = threading.Lock()  # matplotlib's rcParams are process-global (app sessions are threads)
+
+
 class _Style:
-    """Context manager: matplotlib's default style plus the report's font sizes."""
+    """Context manager: matplotlib's default style plus the report's font sizes (one
+    report at a time per process, so concurrent app sessions do not mix settings)."""
 
     def __enter__(self) -> None:
         import matplotlib
         import matplotlib.style
 
-        self._ctx = matplotlib.rc_context()
-        self._ctx.__enter__()
-        matplotlib.style.use("default")
-        matplotlib.rcParams.update(_MATPLOTLIB_RC)
+        _STYLE_LOCK.acquire()
+        try:
+            self._ctx = matplotlib.rc_context()
+            self._ctx.__enter__()
+        except BaseException:
+            _STYLE_LOCK.release()
+            raise
+        try:
+            matplotlib.style.use("default")
+            matplotlib.rcParams.update(_MATPLOTLIB_RC)
+        except BaseException:
+            self.__exit__(None, None, None)
+            raise
 
     def __exit__(self, *exc: object) -> None:
-        self._ctx.__exit__(*exc)
+        try:
+            self._ctx.__exit__(*exc)
+        finally:
+            _STYLE_LOCK.release()
 
 
 def _vline(ax: Any, x: Any, label: str, color: str, style: str = "--") -> None:
