@@ -19,7 +19,7 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from . import __version__
+from ._version import __version__
 from ._results import Result, to_jsonable
 from ._validation import check_choice, check_optional_float, check_sample
 from .capability import Capability, capability
@@ -204,8 +204,9 @@ class Analysis(Result):
                 },
                 "violations": [
                     {"rule": v.rule, "index": int(v.index), "description": v.description,
-                     "points": [int(p) for p in v.points]}
-                    for v in ch.violations
+                     "points": [int(p) for p in v.points],
+                     "chart": "dispersion" if v.rule == "DISP" else "location"}
+                    for v in (*ch.violations, *disp.violations)
                 ],
                 "n_points": int(len(ch.points)),
                 "excluded_points": [to_jsonable(e) for e in ch.excluded],
@@ -229,6 +230,34 @@ def _typical_index(ch: ControlChart) -> int:
     vals, counts = np.unique(sizes, return_counts=True)
     common = vals[np.argmax(counts)]
     return int(np.flatnonzero(sizes == common)[0])
+
+
+def _spec_beyond_fitted_bound(tr: Transform, lsl: float | None, usl: float | None) -> bool:
+    """True when a spec limit falls outside a domain bound that was *estimated* from data.
+
+    A lower spec at or below 0 under an unshifted log or Box–Cox transform is a physical
+    bound (the characteristic cannot be negative), so that side honestly cannot fail.
+    Any other spec outside the domain (a fitted Johnson S_B range, a fitted threshold or
+    shift) would turn an estimate into a claim of zero risk, which qcnorm never makes.
+    """
+    dom = tr.domain
+    natural_low = tr.name in ("log", "boxcox") and abs(float(tr.params_.get("shift", 0.0))) < 1e-12
+    for spec, is_lower in ((lsl, True), (usl, False)):
+        if spec is None or bool(dom.contains(np.asarray([spec]))[0]):
+            continue
+        if is_lower and natural_low and spec <= 0.0:
+            continue
+        return True
+    return False
+
+
+def _best_spec_compatible(choice: TransformChoice, lsl: float | None, usl: float | None):
+    """The lowest-AIC fitted candidate whose domain covers the spec limits."""
+    ok = [c for c in choice.candidates
+          if c.error is None and c.transform is not None and not _spec_beyond_fitted_bound(c.transform, lsl, usl)]
+    if not ok:
+        return None
+    return min(ok, key=lambda c: c.aic)
 
 
 def _normalise_exclude(exclude: Any) -> tuple[tuple[int, str], ...]:
@@ -359,6 +388,16 @@ def analyze(
         choice = choose_transform(x, candidates=cands, subgroups=subgroups, round_lambda=round_lambda)
         tr = choice.transform
         reason = choice.reason
+        if transform == "auto" and _spec_beyond_fitted_bound(tr, lsl, usl):
+            alt = _best_spec_compatible(choice, lsl, usl)
+            if alt is not None:
+                reason = (
+                    f"{choice.name} fitted best, but its fitted range ({tr.domain.describe()}) does not "
+                    f"reach a spec limit, which would make that side look as if it could never fail. "
+                    f"A bound fitted to {n} values is not a physical limit, so the best transform that "
+                    f"covers the spec limits is used instead: {alt.description or alt.name}"
+                )
+                tr = alt.transform
     y = tr.transform(x)
 
     # 2. Normality before and after.
@@ -386,7 +425,7 @@ def analyze(
     lu = limits_in_units(ch, tr)
     warnings.extend(ch.warnings)
     if not ch.in_control:
-        k = len(ch.violations)
+        k = len(ch.violations) + len(ch.dispersion.violations)
         warnings.append(
             f"The chart shows {k} signal{'s' if k != 1 else ''} of special causes: the process is not "
             "in statistical control, so capability figures are not meaningful until the causes are "

@@ -38,7 +38,7 @@ from typing import Any
 
 import numpy as np
 
-from . import __version__
+from ._version import __version__
 from .checklist import ChecklistItem, analysis_dict, checklist_outcome, review_checklist
 from .errors import ConfigError, QcnormError
 

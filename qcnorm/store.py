@@ -754,7 +754,7 @@ class HistoryStore:
             return self._read_version(conn)
 
     def _migrate(self, upto: int = SCHEMA_VERSION) -> None:
-        from . import __version__
+        from ._version import __version__
 
         with self._reading("open the history database") as conn:
             current = self._read_version(conn)
@@ -776,7 +776,7 @@ class HistoryStore:
 
     def _refuse_newer(self, version: int) -> None:
         if version > SCHEMA_VERSION:
-            from . import __version__
+            from ._version import __version__
 
             raise StoreError(
                 f"The history database {self.url} has schema version {version}, written by a newer "

@@ -1,0 +1,1 @@
+"""Speed benchmarks: ``python -m benchmarks`` (see benchmarks/README.md)."""
