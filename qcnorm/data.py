@@ -291,6 +291,8 @@ _DELIMITER_NAMES = {"\t": "tab", ";": "semicolon", ",": "comma", "|": "pipe"}
 _DELIMITER_PRIORITY = ("\t", ";", ",", "|")
 _SNIFF_CHARS = 65536
 _HEADER_SCAN_ROWS = 200
+_LAYOUT_SAMPLE_ROWS = 5000  # rows used to judge which columns are numeric / labels
+_EVIDENCE_TEXTS = 200_000
 
 _MISSING_MARKS = {
     "n/a", "na", "n.a.", "n.a", "nan", "null", "none", "-", "--", "---", "—", "–", "?",
@@ -393,12 +395,26 @@ def _split_units(header: str) -> tuple[str, str | None]:
     h = str(header).strip()
     m = _UNIT_BRACKETS.match(h)
     if m and m.group("name"):
-        return m.group("name").strip(), m.group("unit").strip()
+        unit = m.group("unit").strip()
+        square = h.endswith("]")
+        if square or _looks_like_unit(unit):
+            return m.group("name").strip(), unit
     for rx in (_UNIT_SLASH, _UNIT_IN):
         m = rx.match(h)
         if m and m.group("unit").casefold() in _UNIT_TOKENS:
             return m.group("name").strip(), m.group("unit")
     return h, None
+
+
+def _looks_like_unit(text: str) -> bool:
+    """"mm", "kN", "mg/kg", "N·m", "°C": a known unit, or short without spaces and not a word.
+
+    "(left)" or "(nominal)" are qualifiers, not units.
+    """
+    t = text.strip()
+    if t.casefold() in _UNIT_TOKENS:
+        return True
+    return 0 < len(t) <= 8 and " " not in t and (len(t) <= 3 or not t.isalpha())
 
 
 def _column_key(name: str) -> str:
@@ -672,10 +688,11 @@ def _choose_decimal(evidence: _Evidence, delimiter: str | None, forced: str | No
         why = ("the file is semicolon-separated, as is usual where the comma is the decimal mark"
                if decimal == "," else "the decimal point is the default when nothing else decides")
         val = _NumberFormat(decimal).parse(ex)
+        shown = f" ({ex} = {val:g})" if val is not None and math.isfinite(val) else ""
         notes.append(
             f"{n_amb} value(s) such as {_quote(ex)} could be read with either a decimal point or a "
-            f"decimal comma; they were read with a decimal {'comma' if decimal == ',' else 'point'} "
-            f"({ex} = {val:g}) because {why}. Pass decimal='.' or decimal=',' to read them the other way."
+            f"decimal comma; they were read with a decimal {'comma' if decimal == ',' else 'point'}"
+            f"{shown} because {why}. Pass decimal='.' or decimal=',' to read them the other way."
         )
     return decimal, notes, warns
 
@@ -957,7 +974,11 @@ def _sniff_delimiter(text: str) -> tuple[str | None, bool]:
 
 def _text_grid(text: str, name: str, encoding: str | None, max_rows: int) -> _Grid:
     _check_binary_text(text, name)
-    delim, single_dc = _sniff_delimiter(text)
+    sep_line = re.match(r"\s*sep=(.)[ \t]*(?:\r\n|\r|\n|$)", text[:20], flags=re.IGNORECASE)
+    if sep_line:
+        delim, single_dc = sep_line.group(1), False
+    else:
+        delim, single_dc = _sniff_delimiter(text)
     rows: list[tuple[int, list[Any]]] = []
     if delim is None:
         for i, line in enumerate(re.split(r"\r\n|\r|\n", text), start=1):
@@ -976,6 +997,8 @@ def _text_grid(text: str, name: str, encoding: str | None, max_rows: int) -> _Gr
             for rec in reader:
                 if len(rows) > max_rows:
                     raise _rows_error(name, max_rows)
+                while rec and not rec[-1].strip():
+                    rec.pop()  # trailing delimiters (common in spreadsheet exports)
                 rows.append((start, rec))
                 start = reader.line_num + 1
         except csv.Error as exc:
@@ -985,6 +1008,9 @@ def _text_grid(text: str, name: str, encoding: str | None, max_rows: int) -> _Gr
             ) from None
     grid = _Grid(name, rows, "text", delimiter=delim, encoding=encoding)
     grid.single_decimal_comma = single_dc
+    if sep_line and rows:
+        rows[0] = (rows[0][0], [])  # the "sep=" line names the delimiter; it is not data
+        grid.notes.append(f"Row 1 ('sep={delim}') names the delimiter; it was not read as data.")
     return grid
 
 
@@ -1084,6 +1110,14 @@ def _frame_grid(df: pd.DataFrame, max_rows: int) -> _Grid:
     return _Grid("DataFrame", rows, "frame", header=header, header_row=1)
 
 
+def _has_content(cells: list[Any]) -> bool:
+    """True when any cell of the row holds something other than whitespace."""
+    try:
+        return bool("".join(cells).strip())
+    except TypeError:  # spreadsheet or DataFrame rows mix numbers and text
+        return any(_cell_text(c).strip() for c in cells)
+
+
 def _is_na(v: Any) -> bool:
     try:
         return bool(pd.isna(v))
@@ -1162,31 +1196,34 @@ def _row_kind(cells: list[Any], classify: _Classifier) -> tuple[int, int]:
 
 
 def _find_header(rows: list[tuple[int, list[Any]]], classify: _Classifier) -> int | None:
-    """Index (into ``rows``) of the header row, or None. See the module docstring."""
-    nonblank = [i for i, (_, cells) in enumerate(rows) if any(_cell_text(c).strip() for c in cells)]
-    scan = nonblank[: _HEADER_SCAN_ROWS + 50]
-    kinds = {i: _row_kind(rows[i][1], classify) for i in scan}
-    is_data = {i: kinds[i][0] > 0 for i in scan}
-    is_head = {i: kinds[i][0] == 0 and kinds[i][1] > 0 for i in scan}
-    is_units = {i: is_head[i] and all(_is_unit_token(_cell_text(c)) for c in rows[i][1] if _cell_text(c).strip())
-                for i in scan}
+    """Index (into ``rows``, the non-blank rows) of the header row, or None.
+
+    See the module docstring; "directly below" compares row numbers, so a blank row
+    between two rows separates them.
+    """
+    scan = range(min(len(rows), _HEADER_SCAN_ROWS + 50))
+    kinds = [_row_kind(rows[i][1], classify) for i in scan]
+    is_data = [k[0] > 0 for k in kinds]
+    is_head = [k[0] == 0 and k[1] > 0 for k in kinds]
+    is_units = [is_head[i] and all(_is_unit_token(_cell_text(c)) for c in rows[i][1] if _cell_text(c).strip())
+                for i in scan]
+    n = len(kinds)
     best: tuple[int, int] | None = None
-    for pos, i in enumerate(scan[:_HEADER_SCAN_ROWS]):
+    for i in range(min(n, _HEADER_SCAN_ROWS)):
         if not is_head[i]:
             continue
-        prev = scan[pos - 1] if pos > 0 else None
-        if prev is not None and prev == i - 1:
+        if i > 0 and rows[i - 1][0] == rows[i][0] - 1:
             # Directly below a data row (garbage text among the values), or a units row
             # directly below a header: not a header.
-            if is_data[prev] or (is_units[i] and is_head[prev]):
+            if is_data[i - 1] or (is_units[i] and is_head[i - 1]):
                 continue
-        nxt = pos + 1
-        if nxt < len(scan) and is_units[scan[nxt]]:
+        nxt = i + 1
+        if nxt < n and is_units[nxt]:
             nxt += 1  # a units row between header and data
-        if nxt >= len(scan) or not is_data[scan[nxt]]:
+        if nxt >= n or not is_data[nxt]:
             continue
         run = 0
-        for k in scan[nxt:]:
+        for k in range(nxt, n):
             if not is_data[k]:
                 break
             run += 1
@@ -1194,9 +1231,24 @@ def _find_header(rows: list[tuple[int, list[Any]]], classify: _Classifier) -> in
             best = (run, i)
     if best is not None:
         return best[1]
-    if scan and is_head[scan[0]]:
-        return scan[0]
+    if n and is_head[0]:
+        return 0
+    if n > 1 and kinds[0][1] > 0 and _text_over_numbers(rows[: min(n, 6)], classify):
+        return 0  # a header with some numeric names ("Part;1;2;3")
     return None
+
+
+def _text_over_numbers(rows: list[tuple[int, list[Any]]], classify: _Classifier) -> bool:
+    """True when a text cell of the first row heads a column of numbers in the next rows."""
+    first = rows[0][1]
+    for j, c in enumerate(first):
+        k = classify(c)
+        if k.kind != "invalid" or k.numberish:
+            continue
+        below = [classify(cells[j] if j < len(cells) else None) for _, cells in rows[1:]]
+        if below and all(b.kind == "number" for b in below):
+            return True
+    return False
 
 
 def _build_table(grid: _Grid, decimal: str | None) -> _Table:
@@ -1204,12 +1256,19 @@ def _build_table(grid: _Grid, decimal: str | None) -> _Table:
     warns = list(grid.warnings)
     # Number format from the file-wide evidence (text cells only; spreadsheet numbers are exact).
     evidence = _Evidence()
-    seen: set[str] = set()
+    # Evidence comes from the distinct texts of the file (at most _EVIDENCE_TEXTS of them,
+    # enough to decide; a rare cell beyond them that disagrees is excluded, not altered).
+    seen: dict[Any, None] = {}  # ordered: examples in the notes are the first in the file
     for _, cells in grid.rows:
-        for c in cells:
-            if isinstance(c, str) and c not in seen and len(seen) < 500_000:
-                seen.add(c)
-                evidence.add(c)
+        try:
+            seen.update(dict.fromkeys(cells))
+        except TypeError:  # unhashable objects in a DataFrame
+            seen.update(dict.fromkeys(c for c in cells if isinstance(c, str)))
+        if len(seen) > _EVIDENCE_TEXTS:
+            break
+    for c in seen:
+        if isinstance(c, str):
+            evidence.add(c)
     if grid.single_decimal_comma and decimal is None:
         chosen = ","
         notes.append("Every line holds one number with one comma (such as '12,5'), so the file was read as "
@@ -1231,8 +1290,9 @@ def _build_table(grid: _Grid, decimal: str | None) -> _Table:
     elif chosen == "," and evidence.dot_ambiguous:
         thousands = "."  # "1.234" read as 1234
 
-    rows = grid.rows
-    blank = [r for r, cells in rows if not any(_cell_text(c).strip() for c in cells)]
+    content = [_has_content(cells) for _, cells in grid.rows]
+    blank = [r for (r, _), c in zip(grid.rows, content) if not c]
+    rows = [row for row, c in zip(grid.rows, content) if c]
     if grid.header is not None:
         header_cells: list[Any] = list(grid.header)
         header_row = grid.header_row
@@ -1243,7 +1303,7 @@ def _build_table(grid: _Grid, decimal: str | None) -> _Table:
             header_cells, header_row, body_rows = [], None, rows
         else:
             header_cells, header_row = list(rows[h][1]), rows[h][0]
-            above = [(r, cells) for r, cells in rows[:h] if any(_cell_text(c).strip() for c in cells)]
+            above = rows[:h]
             if above:
                 text = " | ".join(" ".join(_cell_text(c) for c in cells if _cell_text(c).strip())
                                   for _, cells in above[:3])
@@ -1253,9 +1313,8 @@ def _build_table(grid: _Grid, decimal: str | None) -> _Table:
             body_rows = rows[h + 1:]
     # Units row directly below the header.
     units_from_row: dict[int, str] = {}
-    nb_body = [(r, cells) for r, cells in body_rows if any(_cell_text(c).strip() for c in cells)]
-    if header_row is not None and nb_body:
-        r0, first = nb_body[0]
+    if header_row is not None and body_rows:
+        r0, first = body_rows[0]
         texts = [_cell_text(c).strip() for c in first]
         if any(texts) and all(not t or _is_unit_token(t) for t in texts) and _row_kind(first, classify)[0] == 0:
             units_from_row = {j: t.strip("[]()") for j, t in enumerate(texts) if t}
@@ -1283,7 +1342,7 @@ def _build_table(grid: _Grid, decimal: str | None) -> _Table:
     dup = [n for n in names if re.search(r" \(\d+\)$", n) and n not in header_cells]
     if dup:
         notes.append("Repeated column names were made unique: " + ", ".join(dup[:5]) + ".")
-    body = [(r, cells) for r, cells in body_rows if any(_cell_text(c).strip() for c in cells)]
+    body = body_rows
     if blank:
         notes.append(f"{len(blank)} blank row(s) were skipped (rows {_list_rows(blank)}).")
     return _Table(grid.name, grid, names, units, header_row, body, blank, classify, chosen, thousands,
@@ -1321,15 +1380,16 @@ class _ColumnStats:
 
 def _column_stats(table: _Table, j: int, rows: Sequence[tuple[int, list[Any]]] | None = None) -> _ColumnStats:
     st = _ColumnStats()
+    classify = table.classify
     for _, cells in (table.body if rows is None else rows):
-        k = table.classify(table.cell(cells, j))
+        k = classify(cells[j] if j < len(cells) else None)
         if k.kind == "blank":
             st.n_bad += 1
             continue
         st.n_nonblank += 1
         if k.kind == "number":
             st.n_number += 1
-            if len(st.integers) <= len(table.body):
+            if len(st.integers) < _LAYOUT_SAMPLE_ROWS:
                 st.integers.append(k.value)
         elif k.kind == "censored":
             st.n_censored += 1
@@ -1366,7 +1426,9 @@ class _Layout:
 
 
 def _detect_layout(table: _Table) -> _Layout:
-    stats = [_column_stats(table, j) for j in range(len(table.names))]
+    """Wide, long or single; judged on the first _LAYOUT_SAMPLE_ROWS data rows."""
+    sample = table.body[:_LAYOUT_SAMPLE_ROWS]
+    stats = [_column_stats(table, j, sample) for j in range(len(table.names))]
     keys = [_norm_key(_split_units(n)[0]) for n in table.names]
     numeric = [j for j, st in enumerate(stats) if _is_numeric(st)]
     skip = {j for j, k in enumerate(keys) if k in _NOT_MEASUREMENT_NAMES}
@@ -1378,13 +1440,13 @@ def _detect_layout(table: _Table) -> _Layout:
     unit_col = unit_cols[0] if unit_cols else None
 
     def labels(j: int) -> set[str]:
-        return {_cell_text(table.cell(c, j)).strip() for _, c in table.body} - {""}
+        return {_cell_text(table.cell(c, j)).strip() for _, c in sample} - {""}
 
     if value_cols and char_cols:
         return _Layout("long", [value_cols[0]], char_cols[0], value_cols[0], unit_col,
                        f"columns '{table.names[char_cols[0]]}' (characteristic) and "
                        f"'{table.names[value_cols[0]]}' (value) found by name")
-    n_rows = len(table.body)
+    n_rows = len(sample)
     if value_cols and not char_cols:
         text_cols = [j for j in range(len(table.names))
                      if j not in numeric and j not in skip and j != unit_col and stats[j].n_nonblank]
@@ -1409,7 +1471,8 @@ def _find_column(table: _Table, spec: Any, param: str) -> int:
         if not 0 <= j < len(table.names):
             raise ReadError(
                 f"{param}={j} is not a column of {table.where()}: it has {len(table.names)} column(s), "
-                f"indexed from 0. Columns: {table.columns_listing()}."
+                f"indexed from 0. Columns: {table.columns_listing()}. Pass one of these names or "
+                f"an index from 0 to {len(table.names) - 1}."
             )
         return j
     if not isinstance(spec, str):
@@ -1548,9 +1611,15 @@ def read_measurements(
                     "characteristic=."
                 )
             notes.append(f"Long layout: {layout.how}; read the rows of '{char_label}'.")
-            other = sum(v for k, v in counts.items() if k != char_label)
+            other = sum(v for k, v in counts.items() if k and k != char_label)
             if other:
                 notes.append(f"{other} row(s) of other characteristics were not read (not excluded).")
+            if counts.get(""):
+                unlabeled = [r for r, c in table.body
+                             if not _cell_text(table.cell(c, layout.char_col)).strip()]
+                warns.append(f"{len(unlabeled)} row(s) have no label in column '{table.names[layout.char_col]}' "
+                             f"and belong to no characteristic (rows {_list_rows(unlabeled)}); they were not "
+                             "read. Fill in the label to include them.")
         elif characteristic is not None:
             raise ReadError(
                 f"characteristic={characteristic!r} selects rows by the column "
@@ -1603,11 +1672,14 @@ def read_measurements(
     censored: list[CensoredValue] = []
     n_substituted = 0
     text_numbers: list[int] = []
+    classify = table.classify
+    char_col = layout.char_col if char_label is not None else None
     for r, cells in table.body:
-        if char_label is not None and _cell_text(table.cell(cells, layout.char_col)).strip() != char_label:
+        if char_col is not None and _cell_text(cells[char_col] if char_col < len(cells) else None
+                                               ).strip() != char_label:
             continue
-        raw = table.cell(cells, col)
-        k = table.classify(raw)
+        raw = cells[col] if col < len(cells) else None
+        k = classify(raw)
         text = _cell_text(raw)
         value: float | None = None
         if k.kind == "number":

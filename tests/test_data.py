@@ -330,6 +330,42 @@ def test_text_named_xls_is_read_as_text_with_a_note():
     assert _has_note(m, "named like a spreadsheet", "plain text")
 
 
+@pytest.mark.parametrize(
+    "header, name, units",
+    [
+        ("Ra [µm]", "Ra", "µm"),
+        ("Diameter (mm)", "Diameter", "mm"),
+        ("Flatness/um", "Flatness", "um"),
+        ("Torque (N·m)", "Torque", "N·m"),
+        ("Length in mm", "Length", "mm"),
+        ("Diameter (left)", "Diameter (left)", None),  # a qualifier, not a unit
+        ("Pass/Fail", "Pass/Fail", None),
+    ],
+)
+def test_units_from_headers(header, name, units):
+    m = read_measurements(f"{header}\n1.5\n2.5\n")
+    assert m.column == header and m.units == units
+    assert read_measurements(f"{header}\n1.5\n2.5\n", column=name).column == header
+
+
+def test_excel_sep_line_trailing_tabs_and_numeric_header_names():
+    m = read_measurements("sep=;\nPart;Load (kN)\n1;1,5\n2;2,5\n")
+    assert m.values.tolist() == [1.5, 2.5] and m.rows.tolist() == [3, 4] and m.report.header_row == 2
+    assert _has_note(m, "sep=;")
+    t = read_table("Bore (mm)\t\n25.012\t\n25.008\t\n")
+    assert t.columns == ("Bore (mm)",)  # trailing tabs make no empty columns
+    # A header with a numeric name is still a header when a text name heads a number column.
+    h = read_measurements("Diameter;2024\n12,5;1\n12,6;2\n12,7;3\n", column=0)
+    assert h.report.header_row == 1 and h.values.tolist() == [12.5, 12.6, 12.7]
+
+
+def test_long_rows_without_label_are_reported():
+    m = read_measurements("Feature,Value\nBore,1\n,2\nBore,3\nDepth,4\n", characteristic="Bore")
+    assert m.values.tolist() == [1.0, 3.0]
+    assert _has_warning(m, "1 row(s) have no label", "rows 3")
+    assert _has_note(m, "1 row(s) of other characteristics")
+
+
 # --------------------------------------------------------------------------- XLSX
 
 
