@@ -125,6 +125,8 @@ def test_save_review_and_history(db):
     _review(at, "Sam Reyes", "approve", "signals traced to the insert change; parts sorted")
     assert not at.error, _texts(at.error)
     assert "Review #1 recorded" in _texts(at.success)
+    # the decided record stays open with its decision trail (for the PDF with the decision)
+    assert "Review #1 by **Sam Reyes**" in _texts(at.markdown)
     with HistoryStore(db) as s:
         assert s.list_analyses(awaiting_review=True) == []
         (rv,) = s.reviews_for(1)
@@ -145,7 +147,6 @@ def test_a_changed_decision_is_a_new_review_pointing_at_the_old(db):
     at = _app()
     _save_shift(at, "Dana Whit", "2026-11-25 C")
     _review(at, "Sam Reyes", "hold", "wait for the gauge check")
-    at.toggle(key="rs_show_reviewed").set_value(True).run()
     _review(at, "Sam Reyes", "approve", "gauge check passed")
     assert "replaces review #1" in _texts(at.success)
     with HistoryStore(db) as s:
@@ -220,7 +221,6 @@ def test_saved_pdf_is_made_from_a_faithful_rerun(db):
     at = _app()
     _save_shift(at, "Dana Whit", "2026-11-25 C")
     _review(at, "Sam Reyes", "approve", "ok")
-    at.toggle(key="rs_show_reviewed").set_value(True).run()
     assert "reproduces the stored figures" in _texts(at.caption)
     _click(at, "Prepare PDF summary")
     pdf = at.session_state["rs_pdf"]

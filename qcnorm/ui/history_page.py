@@ -88,7 +88,8 @@ def capability_over_shifts_figure(records: Sequence[AnalysisRecord], *, height: 
         plot_bgcolor=PALETTE["paper"], legend=dict(orientation="h", y=-0.3, x=0),
     )
     fig.update_xaxes(tickmode="array", tickvals=list(range(len(records))), ticktext=labels,
-                     showgrid=False, showline=True, linecolor="#B8C1C6")
+                     range=[-0.6, max(len(records), 3) - 0.4], showgrid=False, showline=True,
+                     linecolor="#B8C1C6")
     fig.update_yaxes(title_text="index", showgrid=True, gridcolor=PALETTE["grid"], zeroline=False)
     return fig
 
@@ -98,8 +99,11 @@ def violations_over_shifts_figure(records: Sequence[AnalysisRecord], *, height: 
     labels = [shift_label(r) for r in records]
     counts = [r.violations if r.violations is not None else 0 for r in records]
     colours = [PALETTE["signal"] if c else PALETTE["excluded"] for c in counts]
-    fig = go.Figure(go.Bar(x=labels, y=counts, marker_color=colours, name="signals",
-                           hovertemplate="%{x}: %{y} signal(s)<extra></extra>"))
+    fig = go.Figure(go.Bar(x=list(range(len(records))), y=counts, marker_color=colours, name="signals",
+                           width=0.5, customdata=labels,
+                           hovertemplate="%{customdata}: %{y} signal(s)<extra></extra>"))
+    fig.update_xaxes(tickmode="array", tickvals=list(range(len(records))), ticktext=labels,
+                     range=[-0.6, max(len(records), 3) - 0.4])
     fig.update_layout(title=dict(text="Signals of special causes per shift", x=0, font=dict(size=15)),
                       height=height, margin=dict(l=60, r=20, t=50, b=70), paper_bgcolor=PALETTE["paper"],
                       plot_bgcolor=PALETTE["paper"], showlegend=False)
@@ -176,6 +180,7 @@ def render() -> None:
     view = h.rename(columns={"id": "#", "in_control": "in control", "created_at": "saved (UTC)",
                              "decided_at": "decided (UTC)", "supersedes": "replaces #"})
     view["decision"] = view["decision"].fillna("awaiting review")
+    view["in control"] = view["in control"].map({True: "yes", False: "NO"}).fillna("—")
     st.dataframe(view, hide_index=True, width="stretch",
                  column_config={"cpk": st.column_config.NumberColumn("Cpk", format="%.2f"),
                                 "ppk": st.column_config.NumberColumn("Ppk", format="%.2f"),

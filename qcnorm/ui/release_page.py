@@ -48,7 +48,9 @@ __all__ = [
 ]
 
 _fmt = common.fmt
-STATUS_ICON = {"pass": "✅", "fail": "❌", "n/a": "➖"}
+#: status badges drawn as text (no emoji font needed): (label, text colour, background)
+STATUS_BADGE = {"pass": ("YES", "#0b5d3b", "#d7efe3"), "fail": ("NO", "#8a1c1c", "#f7dcdc"),
+                "n/a": ("N/A", "#4b5860", "#e6eaec")}
 OUTCOME_TEXT = {
     "all_pass": "Every checklist question is answered yes.",
     "some_fail": "At least one checklist question is answered no: look at it before deciding.",
@@ -261,7 +263,10 @@ def render_checklist(items: tuple[ChecklistItem, ...]) -> None:
     outcome = checklist_outcome(items)
     lines = []
     for it in items:
-        lines.append(f"{STATUS_ICON[it.status]} **{it.name}** — {it.detail}  \n"
+        label, fg, bg = STATUS_BADGE[it.status]
+        badge = (f"<span style='display:inline-block;min-width:2.6em;text-align:center;font-weight:700;"
+                 f"font-size:0.8em;padding:1px 6px;border-radius:4px;color:{fg};background:{bg}'>{label}</span>")
+        lines.append(f"{badge} **{it.name}** — {it.detail}  \n"
                      f"<span style='color:#5b6770;font-size:0.85em'>rule: {it.rule}</span>")
     with st.container(border=True):
         st.markdown("**Release checklist** (decision support)")
@@ -307,7 +312,8 @@ def _summary(a: Analysis) -> None:
     c1, c2, c3, c4, c5 = st.columns(5)
     c1.metric("Values", f"{a.n:,}")
     c2.metric("Transform", a.transform.name)
-    c3.metric("Chart", "in control" if a.in_control else f"{len(a.chart.violations)} signal(s)")
+    k = len((a.to_dict().get("control") or {}).get("violations") or [])
+    c3.metric("Chart", "in control" if a.in_control else f"{k} signal{'s' if k != 1 else ''}")
     c4.metric("Cpk", "—" if cap is None else _fmt(cap.cpk, 3))
     c5.metric("Ppk", "—" if cap is None else _fmt(cap.ppk, 3))
     if cap is not None and not a.in_control:

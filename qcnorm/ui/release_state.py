@@ -26,6 +26,7 @@ rs_show_reviewed     review page lists every saved analysis, not only those awai
 rs_review_pick       id of the saved analysis opened on the review page
 rs_decision          "approve" | "hold" | "reject" (None until chosen)
 rs_comment           reviewer's comment (required for hold and reject)
+rs_open_next         id of an analysis to keep open on the review page after its decision (or None)
 rs_history_char      characteristic shown on the history page
 rs_saved             {fingerprint of what was saved: analysis id} for saves in this session
 rs_last_saved        id of the analysis saved last in this session (None before the first)
@@ -58,6 +59,7 @@ DEFAULTS: dict[str, Any] = {
     "rs_review_pick": None,
     "rs_decision": None,
     "rs_comment": "",
+    "rs_open_next": None,
     "rs_history_char": None,
     "rs_saved": {},
     "rs_last_saved": None,

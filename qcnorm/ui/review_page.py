@@ -25,11 +25,19 @@ from . import common
 from . import release_page as rp
 from . import release_state as rs
 
-__all__ = ["DECISION_LABELS", "awaiting_table", "evidence_table", "record_decision", "render"]
+__all__ = ["DECISION_LABELS", "decision_badge", "awaiting_table", "evidence_table", "record_decision", "render"]
 
 _fmt = common.fmt
 DECISION_LABELS = {"approve": "Approve", "hold": "Hold", "reject": "Reject"}
-DECISION_ICON = {"approve": "🟢", "hold": "🟡", "reject": "🔴", None: "⚪"}
+#: decision badges drawn as text (no emoji font needed): (text colour, background)
+DECISION_BADGE = {"approve": ("#0b5d3b", "#d7efe3"), "hold": ("#7a5200", "#fbefd0"),
+                  "reject": ("#8a1c1c", "#f7dcdc")}
+
+
+def decision_badge(decision: str) -> str:
+    fg, bg = DECISION_BADGE.get(decision, ("#4b5860", "#e6eaec"))
+    return (f"<span style='font-weight:700;font-size:0.85em;padding:1px 7px;border-radius:4px;"
+            f"color:{fg};background:{bg}'>{DECISION_LABELS.get(decision, decision).upper()}</span>")
 
 
 def _when(iso: str | None) -> str:
@@ -118,6 +126,11 @@ def record_decision(s: HistoryStore, record: AnalysisRecord, *, decision: str | 
 
 
 def _pick(s: HistoryStore) -> AnalysisRecord | None:
+    keep = rs.get("rs_open_next")
+    if keep is not None:  # the record just decided stays open (set before the widgets are drawn)
+        rs.put("rs_open_next", None)
+        st.session_state["rs_show_reviewed"] = True
+        st.session_state["rs_review_pick"] = keep
     st.toggle("Show every saved shift (also those already reviewed)", key="rs_show_reviewed")
     show_all = bool(rs.get("rs_show_reviewed"))
     records = s.list_analyses(awaiting_review=None if show_all else True, limit=200)
@@ -191,6 +204,7 @@ def _chart(s: HistoryStore, r: AnalysisRecord) -> None:
                    "below come from the re-run (qcnorm " + str(rep.analysis.version) + "), the table and "
                    f"checklist from the stored record (qcnorm {r.qcnorm_version}).", icon="⚠")
     st.plotly_chart(plots.control_figure(rep.analysis), width="stretch", key=f"rs_review_chart_{r.id}")
+    st.plotly_chart(plots.dispersion_figure(rep.analysis), width="stretch", key=f"rs_review_disp_{r.id}")
     if not rep.mismatches:
         st.caption("Chart re-drawn from the stored measurements and settings; the re-run reproduces the "
                    "stored figures (n, transform, limits, Cpk, Ppk, Anderson–Darling p).")
@@ -204,8 +218,9 @@ def _trail(s: HistoryStore, r: AnalysisRecord) -> None:
     st.markdown("**Decisions recorded** (oldest first; none is ever changed or deleted)")
     for v in reviews:
         rep = f" — replaces review #{v.supersedes}" if v.supersedes else ""
-        st.markdown(f"{DECISION_ICON.get(v.decision, '⚪')} Review #{v.id}: **{DECISION_LABELS.get(v.decision, v.decision)}** "
-                    f"by {v.reviewer}, {_when(v.created_at)}{rep}  \n> {v.comment or '(no comment)'}")
+        st.markdown(f"{decision_badge(v.decision)} Review #{v.id} by **{v.reviewer}**, "
+                    f"{_when(v.created_at)}{rep}", unsafe_allow_html=True)
+        st.markdown(f"> {v.comment or '(no comment)'}")
 
 
 def _decision_form(s: HistoryStore, r: AnalysisRecord) -> None:
@@ -236,6 +251,7 @@ def _decision_form(s: HistoryStore, r: AnalysisRecord) -> None:
         st.error(msg, icon="✋")
         return
     rs.flash("success", msg)
+    rs.put("rs_open_next", r.id)
     for k in ("rs_decision", "rs_comment"):
         st.session_state.pop(k, None)
     st.rerun()
@@ -264,7 +280,8 @@ def render() -> None:
         for w in r.analysis.get("warnings") or []:
             st.caption(f"⚑ {w}")
     with right:
-        st.dataframe(evidence_table(r.analysis), hide_index=True, width="stretch")
+        ev = evidence_table(r.analysis)
+        st.dataframe(ev, hide_index=True, width="stretch", height=38 + 35 * len(ev))
     common.guard(_chart, s, r)
     common.guard(_baseline_and_earlier, s, r)
     common.guard(_trail, s, r)
