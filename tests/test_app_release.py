@@ -168,6 +168,9 @@ def test_missing_names_give_an_error_and_save_nothing(db):
     assert "reviewer" in _texts(at.error)
     _review(at, "Sam Reyes", "reject", "")  # hold / reject need a reason
     assert "comment" in _texts(at.error)
+    # The ten demo days show signals (checklist: NO), so approving needs a reason too.
+    _review(at, "Sam Reyes", "approve", "")
+    assert "In statistical control?" in _texts(at.error) and "why you approve" in _texts(at.error)
     with HistoryStore(db) as s:
         assert s.reviews_for(1) == []
         assert [r.id for r in s.list_analyses(awaiting_review=True)] == [1]

@@ -35,7 +35,7 @@ import streamlit as st
 
 from ..analysis import Analysis, Baseline, analyze
 from ..checklist import ChecklistItem, checklist_outcome, review_checklist
-from ..errors import ConfigError, QcnormError, StoreError
+from ..errors import ConfigError, StoreError
 from ..report import ReportMeta, build_pdf
 from ..store import AnalysisRecord, BaselineRecord, HistoryStore, data_sha256, default_db_url
 from . import common, compute, state

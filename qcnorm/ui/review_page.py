@@ -110,6 +110,11 @@ def record_decision(s: HistoryStore, record: AnalysisRecord, *, decision: str | 
         problems.append("choose approve, hold or reject")
     elif decision in ("hold", "reject") and not comment:
         problems.append(f"say in the comment why you {decision} it (what is needed next)")
+    elif decision == "approve" and not comment:
+        failed = [i.name for i in review_checklist(record.analysis) if i.passed is False]
+        if failed:
+            problems.append("the checklist answers NO to " + "; ".join(f"'{q}'" for q in failed)
+                            + " — say in the comment why you approve all the same")
     if problems:
         return False, "Decision not recorded: " + "; ".join(problems) + "."
     prev = record.latest_review
@@ -236,7 +241,7 @@ def _decision_form(s: HistoryStore, r: AnalysisRecord) -> None:
                  format_func=DECISION_LABELS.get,
                  help="; ".join(f"{DECISION_LABELS[k]}: {v}" for k, v in DECISIONS.items()))
         st.text_area("Comment", key="rs_comment", height=90,
-                     placeholder="What you checked and why you decided so (required for hold and reject)")
+                     placeholder="What you checked and why you decided so (required for hold and reject, and for approve when the checklist says NO)")
         go_ = st.form_submit_button("Record decision", type="primary")
     if not go_:
         return
