@@ -14,7 +14,7 @@ import traceback
 from collections.abc import Sequence
 from typing import Any
 
-from . import __version__
+from ._version import __version__
 from .errors import QcnormError
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2

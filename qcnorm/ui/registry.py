@@ -34,6 +34,9 @@ PAGES: tuple[PageSpec, ...] = (
     PageSpec("shape", "2 · Shape", "shape_page", "Distribution, transform and normality"),
     PageSpec("stability", "3 · Stability", "stability_page", "Control chart, signals and assignable causes"),
     PageSpec("capability", "4 · Capability", "capability_page", "Indices, ppm and what they mean"),
+    PageSpec("release", "5 · Save & baseline", "release_page", "Save this shift, freeze a baseline, PDF summary"),
+    PageSpec("review", "6 · Review", "review_page", "Saved shifts awaiting review: evidence, checklist, decision", needs_data=False),
+    PageSpec("history", "7 · History", "history_page", "Capability, signals and decisions over shifts", needs_data=False),
 )
 
 
