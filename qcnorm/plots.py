@@ -45,6 +45,7 @@ PALETTE = {
 
 _FONT = dict(family="Inter, 'Segoe UI', 'DejaVu Sans', sans-serif", size=13, color="#1E2A32")
 MAX_BINS = 60
+MARKERS_UP_TO = 600  # longer charts are drawn as lines (signals keep their markers)
 
 
 # --------------------------------------------------------------------------------------
@@ -73,7 +74,8 @@ def histogram_bins(x: Any, max_bins: int = MAX_BINS) -> Bins:
 
     numpy's "auto" rule (the larger of Sturges and Freedman–Diaconis), capped at
     ``max_bins``; ``numpy.histogram`` closes the last bin on the right, so the maximum
-    is counted. A constant sample gets one bin of unit width around the value.
+    is counted. A (nearly) constant sample gets one bin around the values, wide enough
+    to hold them all.
     """
     v = np.asarray(x, dtype=float)
     v = v[np.isfinite(v)]
@@ -257,8 +259,8 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
     units = analysis.units
     fig = go.Figure()
     fig.add_trace(go.Scatter(
-        x=xs, y=pts, mode="lines+markers", name=what,
-        line=dict(color=PALETTE["ink"], width=1.2),
+        x=xs, y=pts, mode="lines+markers" if n <= MARKERS_UP_TO else "lines", name=what,
+        line=dict(color=PALETTE["ink"], width=1.2 if n <= MARKERS_UP_TO else 0.8),
         marker=dict(size=6 if n <= 300 else 4, color=PALETTE["ink"], symbol="circle"),
         text=text, hovertemplate="%{text}<br>%{y:.5g}<extra></extra>",
     ))
@@ -281,14 +283,31 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
             marker=dict(size=11, color=PALETTE["excluded"], symbol="circle-open", line=dict(width=2)),
             text=[text[i] for i in np.flatnonzero(excl)], hovertemplate="%{text}<extra></extra>",
         ))
-    if flagged.any():
-        idx = np.flatnonzero(flagged)
+    # signals: the point where a rule triggers gets a filled red diamond and the rule ids;
+    # the other points of the pattern get a red ring (no text, so long runs stay readable)
+    triggers: dict[int, list[str]] = {}
+    for v in ch.violations:
+        if 0 <= v.index < n and not excl[v.index]:
+            triggers.setdefault(int(v.index), [])
+            if v.rule not in triggers[int(v.index)]:
+                triggers[int(v.index)].append(v.rule)
+    pattern = np.flatnonzero(flagged)
+    pattern = pattern[~np.isin(pattern, list(triggers))]
+    if pattern.size:
+        fig.add_trace(go.Scatter(
+            x=xs[pattern], y=pts[pattern], mode="markers", name="part of a signal pattern",
+            marker=dict(size=10, color="rgba(0,0,0,0)", symbol="circle-open",
+                        line=dict(color=PALETTE["signal"], width=1.6)),
+            customdata=[text[i] for i in pattern], hovertemplate="%{customdata}<extra></extra>",
+        ))
+    if triggers:
+        idx = np.array(sorted(triggers))
         fig.add_trace(go.Scatter(
             x=xs[idx], y=pts[idx], mode="markers+text", name="signal (run rule)",
-            marker=dict(size=12, color="rgba(0,0,0,0)", symbol="diamond-open",
-                        line=dict(color=PALETTE["signal"], width=2.2)),
-            text=[",".join(rules[i]) for i in idx], textposition="top center",
-            textfont=dict(size=10, color=PALETTE["signal"]),
+            marker=dict(size=11, color=PALETTE["signal"], symbol="diamond",
+                        line=dict(color="white", width=1)),
+            text=[",".join(triggers[i]) for i in idx], textposition="top center",
+            textfont=dict(size=11, color=PALETTE["signal"]),
             customdata=[text[i] for i in idx], hovertemplate="%{customdata}<extra></extra>",
         ))
     phase = "Phase II (frozen baseline)" if ch.phase == "II" else "Phase I"
@@ -314,7 +333,7 @@ def dispersion_figure(analysis: Any, *, height: int = 320) -> go.Figure:
     name = _DISPERSION_NAMES.get(d.statistic, d.statistic)
     fig = go.Figure()
     fig.add_trace(go.Scatter(
-        x=xs, y=vals, mode="lines+markers", name=name.lower(),
+        x=xs, y=vals, mode="lines+markers" if n <= MARKERS_UP_TO else "lines", name=name.lower(),
         line=dict(color=PALETTE["teal"], width=1.1),
         marker=dict(size=5 if n <= 300 else 3, color=PALETTE["teal"]),
         hovertemplate="point %{x}: %{y:.4g}<extra></extra>", connectgaps=False,
@@ -336,8 +355,8 @@ def dispersion_figure(analysis: Any, *, height: int = 320) -> go.Figure:
         idx = np.flatnonzero(flagged)
         fig.add_trace(go.Scatter(
             x=xs[idx], y=vals[idx], mode="markers", name="beyond limit",
-            marker=dict(size=12, color="rgba(0,0,0,0)", symbol="diamond-open",
-                        line=dict(color=PALETTE["signal"], width=2.2)),
+            marker=dict(size=11, color=PALETTE["signal"], symbol="diamond",
+                        line=dict(color="white", width=1)),
             hovertemplate="point %{x}: %{y:.4g}<extra></extra>",
         ))
     scale = "transformed scale" if analysis.transform.name != "none" else (analysis.units or "units")

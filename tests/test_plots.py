@@ -84,10 +84,13 @@ def test_violations_are_marked_with_their_rule(skewed_analysis):
     assert a.chart.violations, "the planted point should trip a rule"
     fig = plots.control_figure(a)
     sig = [t for t in fig.data if t.name == "signal (run rule)"][0]
-    marked = set(int(v) - 1 for v in sig.x)
-    for v in a.chart.violations:
-        assert v.index in marked
-    assert any(v.rule in txt for v in a.chart.violations for txt in sig.text)
+    marked = dict(zip((int(v) - 1 for v in sig.x), sig.text))
+    for v in a.chart.violations:  # each trigger point carries its rule id
+        assert v.rule in marked[v.index].split(",")
+    ring = [t for t in fig.data if t.name == "part of a signal pattern"]
+    ringed = set() if not ring else {int(v) - 1 for v in ring[0].x}
+    for v in a.chart.violations:  # every point of each pattern is marked one way or the other
+        assert set(v.points) <= ringed | set(marked)
 
 
 def test_excluded_points_drawn_grey():

@@ -120,7 +120,7 @@ def render() -> None:
                    f"({p_raw.confidence:.0%} pointwise band, plotting positions {p_raw.plotting_position}).")
 
     st.subheader("Normality before and after")
-    c1, c2 = st.columns([1.2, 1])
+    c1, c2 = st.columns([1.5, 1])
     with c1:
         st.dataframe(normality_table(a), hide_index=True, width="stretch")
     with c2:
@@ -138,7 +138,7 @@ def render() -> None:
                    f"Rule: {a.transform_choice.method}.")
         st.dataframe(tbl, hide_index=True, width="stretch")
         sl = a.transform_choice.spread_level
-        if sl is not None:
+        if sl is not None and getattr(sl, "message", "") and sl.message not in a.transform_reason:
             st.caption(f"Spread–level cross-check from the subgroups: {getattr(sl, 'message', '') or sl}")
     elif a.phase == "II":
         st.caption("The transform comes from the frozen baseline and is not refitted (Phase II).")
