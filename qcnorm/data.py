@@ -47,6 +47,8 @@ How a file is read
    delimiter (semicolon-separated files use decimal commas) and a note says so.
    ``decimal=`` forces the choice. Thousands separators are accepted only in
    well-formed groups of three digits (".", ",", space, no-break space, "'").
+   The evidence is taken from the file's first 200,000 distinct cell texts; a
+   later cell that disagrees is excluded with its reason, never altered.
 7. *Cells.* A number is used. Blank cells, missing marks ("n/a", "—", "#N/A"),
    spreadsheet errors and text are excluded with their reason. Censored values
    ("<0.05", "< LOD", "ND", "n.d.", "BDL", ">100") are flagged; by default they
@@ -68,11 +70,19 @@ one of the two is named, by content; *single*: one measurement column (possibly
 with subgroup, time or id columns).
 
 Measurement columns of a wide file are the columns where at least half of the
-non-blank cells are numbers or censored values, leaving out columns that are
+non-blank cells (missing marks aside) are numbers or censored values, judged on the
+first 5,000 data rows, leaving out columns that are
 obviously not measurements: names such as id, no., sample, part, serial, batch,
 lot, subgroup, group, shift, operator, machine, cavity, date, time, order,
 sequence, run (see ``_NOT_MEASUREMENT_NAMES``), and columns holding the running
 integers 1, 2, 3, ... (a row index).
+
+References
+----------
+Shafranovich, Y. (2005). Common Format and MIME Type for Comma-Separated Values (CSV)
+Files. RFC 4180, IETF (quoting rules followed by the reader and the export).
+OWASP Foundation. CSV Injection (formula injection in spreadsheet exports); the
+neutralization in :func:`export_csv` / :func:`export_xlsx` follows it.
 """
 
 from __future__ import annotations
@@ -87,6 +97,7 @@ import zipfile
 from collections import Counter
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from itertools import chain
 from pathlib import Path
 from typing import Any, ClassVar
 
@@ -797,13 +808,14 @@ def _sniff_type(data: bytes, name: str, max_bytes: int) -> str:
     """Return "xlsx" or "text", or raise ReadError naming the detected type."""
     head = data[:64]
     if head.startswith(_OLE2):
-        return _raise(_save_as(name, "an old-format Excel workbook (.xls) or another legacy Office file"))
+        raise _save_as(name, "an old-format Excel workbook (.xls) or another legacy Office file")
     if head.startswith((b"PK\x03\x04", b"PK\x05\x06", b"PK\x07\x08")):
         try:
             with zipfile.ZipFile(io.BytesIO(data)) as zf:
                 infos = zf.infolist()
                 names = {i.filename for i in infos}
-                mimetype = zf.read("mimetype")[:100] if "mimetype" in names else b""
+                small = {i.filename for i in infos if i.file_size < 1000}
+                mimetype = zf.read("mimetype")[:100] if "mimetype" in small else b""
         except (zipfile.BadZipFile, OSError, ValueError, KeyError, RuntimeError, NotImplementedError, EOFError):
             raise _not_a_table(name, "a damaged or unreadable ZIP archive") from None
         if "xl/workbook.xml" in names:
@@ -815,9 +827,9 @@ def _sniff_type(data: bytes, name: str, max_bytes: int) -> str:
                 )
             return "xlsx"
         if "xl/workbook.bin" in names:
-            return _raise(_save_as(name, "an Excel binary workbook (.xlsb)"))
+            raise _save_as(name, "an Excel binary workbook (.xlsb)")
         if b"opendocument.spreadsheet" in mimetype or "content.xml" in names:
-            return _raise(_save_as(name, "an OpenDocument spreadsheet (.ods)"))
+            raise _save_as(name, "an OpenDocument spreadsheet (.ods)")
         if "word/document.xml" in names:
             raise _not_a_table(name, "a Word document (.docx)")
         if any(n.startswith("ppt/") for n in names):
@@ -833,10 +845,6 @@ def _sniff_type(data: bytes, name: str, max_bytes: int) -> str:
     if head.startswith(b"RIFF") and len(head) >= 12:
         raise _not_a_table(name, "a WebP image" if head[8:12] == b"WEBP" else "a media file (RIFF)")
     return "text"
-
-
-def _raise(exc: Exception) -> str:
-    raise exc
 
 
 def _decode(data: bytes, name: str) -> tuple[str, str, list[str]]:
@@ -981,11 +989,12 @@ def _text_grid(text: str, name: str, encoding: str | None, max_rows: int) -> _Gr
         delim, single_dc = _sniff_delimiter(text)
     rows: list[tuple[int, list[Any]]] = []
     if delim is None:
-        for i, line in enumerate(re.split(r"\r\n|\r|\n", text), start=1):
-            if i > max_rows + 1:
-                raise _rows_error(name, max_rows)
+        lines = re.split(r"\r\n|\r|\n", text)
+        if len(lines) > max_rows + 2:
+            raise _rows_error(name, max_rows)
+        for i, line in enumerate(lines, start=1):
             cell = line.strip()
-            if len(cell) >= 2 and cell[0] == cell[-1] == '"':
+            if cell[:1] == '"' and len(cell) >= 2 and cell[-1] == '"':
                 cell = cell[1:-1].replace('""', '"')
             rows.append((i, [cell] if cell else []))
         if rows and not rows[-1][1] and text.endswith(("\n", "\r")):
@@ -1259,11 +1268,12 @@ def _build_table(grid: _Grid, decimal: str | None) -> _Table:
     # Evidence comes from the distinct texts of the file (at most _EVIDENCE_TEXTS of them,
     # enough to decide; a rare cell beyond them that disagrees is excluded, not altered).
     seen: dict[Any, None] = {}  # ordered: examples in the notes are the first in the file
-    for _, cells in grid.rows:
+    for start in range(0, len(grid.rows), 10_000):
+        chunk = grid.rows[start:start + 10_000]
         try:
-            seen.update(dict.fromkeys(cells))
+            seen.update(dict.fromkeys(chain.from_iterable(cells for _, cells in chunk)))
         except TypeError:  # unhashable objects in a DataFrame
-            seen.update(dict.fromkeys(c for c in cells if isinstance(c, str)))
+            seen.update(dict.fromkeys(c for _, cells in chunk for c in cells if isinstance(c, str)))
         if len(seen) > _EVIDENCE_TEXTS:
             break
     for c in seen:
@@ -1673,6 +1683,7 @@ def read_measurements(
     n_substituted = 0
     text_numbers: list[int] = []
     classify = table.classify
+    is_xlsx = table.grid.kind == "xlsx"
     char_col = layout.char_col if char_label is not None else None
     for r, cells in table.body:
         if char_col is not None and _cell_text(cells[char_col] if char_col < len(cells) else None
@@ -1680,13 +1691,20 @@ def read_measurements(
             continue
         raw = cells[col] if col < len(cells) else None
         k = classify(raw)
+        kind = k.kind
+        if kind == "number" and sub_col is None and ord_col is None:
+            values.append(k.value)  # the common case, kept short for large files
+            rows_out.append(r)
+            if is_xlsx and isinstance(raw, str):
+                text_numbers.append(r)
+            continue
         text = _cell_text(raw)
         value: float | None = None
-        if k.kind == "number":
+        if kind == "number":
             value = k.value
-            if isinstance(raw, str):
+            if is_xlsx and isinstance(raw, str):
                 text_numbers.append(r)
-        elif k.kind == "censored":
+        elif kind == "censored":
             has_limit = not math.isnan(k.value)
             censored.append(CensoredValue(r, text.strip(), k.censor_kind, k.value if has_limit else None))
             if include_censored and has_limit:
@@ -1714,7 +1732,7 @@ def read_measurements(
         values.append(value)
         rows_out.append(r)
 
-    if table.grid.kind == "xlsx" and text_numbers:
+    if is_xlsx and text_numbers:
         notes.append(f"{len(text_numbers)} number(s) stored as text in the sheet were read as numbers "
                      f"(rows {_list_rows(text_numbers)}).")
     n_cens_excluded = len(censored) - n_substituted

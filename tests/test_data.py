@@ -492,6 +492,17 @@ def test_ods_xlsb_and_docx_are_named():
         read_measurements(_zip({"xl/workbook.xml": b"not xml"}))
 
 
+def test_workbook_that_unpacks_far_beyond_the_limit_is_refused():
+    bomb = zipfile.ZipFile(buf := io.BytesIO(), "w", compression=zipfile.ZIP_DEFLATED)
+    bomb.writestr("xl/workbook.xml", b"<workbook/>")
+    bomb.writestr("xl/worksheets/sheet1.xml", b"\x00" * 2_000_000)
+    bomb.close()
+    data = buf.getvalue()
+    assert len(data) < 100_000
+    with pytest.raises(ReadError, match="unpacks to 2.0 MB"):
+        read_measurements(data, max_bytes=100_000)
+
+
 def test_no_numeric_values_and_blank_text():
     with pytest.raises(ReadError, match="No numeric values"):
         read_measurements("Name\nabc\ndef\n")
