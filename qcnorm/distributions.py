@@ -40,7 +40,6 @@ from scipy.special import (
     gammaincc,
     gammaincinv,
     gammaln,
-    log_ndtr,
     ndtr,
     polygamma,
 )
@@ -48,7 +47,7 @@ from scipy.special import (
 from ._results import Result
 from ._validation import check_optional_float, check_sample
 from .errors import ConfigError, DataError, DomainError
-from .normality import anderson_darling_a2
+from .normality import _log_phi_pair_sorted, anderson_darling_a2
 
 __all__ = [
     "DistributionFit",
@@ -248,26 +247,6 @@ def _normal_loglik_at_ml(n: int, sigma: float) -> float:
 def _require_spread(sigma: float, what: str) -> None:
     if not sigma > 0.0:
         raise DataError(f"All values are equal {what}: there is no spread to fit a distribution to.")
-
-
-def _log_phi_pair_sorted(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    r"""ln Φ(z) and ln Φ(−z) for ascending ``z``, one ``ndtr`` pass.
-
-    For z < 0, Φ(z) is the small tail: ln Φ(z) = ln(tail), ln Φ(−z) = ln(1 − tail)
-    via log1p; mirrored for z ≥ 0. Where the tail underflows (|z| > ~37),
-    ``log_ndtr`` takes over. Same values as two ``log_ndtr`` calls, about half the time.
-    """
-    k = int(np.searchsorted(z, 0.0))  # z[:k] < 0 <= z[k:]
-    tail = ndtr(-np.abs(z))
-    with np.errstate(divide="ignore"):
-        log_tail = np.log(tail)
-    bad = tail == 0.0
-    if bad.any():
-        log_tail[bad] = log_ndtr(-np.abs(z[bad]))
-    log_body = np.log1p(-tail)
-    lc = np.concatenate((log_tail[:k], log_body[k:]))
-    ls = np.concatenate((log_body[:k], log_tail[k:]))
-    return lc, ls
 
 
 # normal ---------------------------------------------------------------------------------
