@@ -287,8 +287,40 @@ def _lcs_lognormal(xs: np.ndarray, p: dict[str, float]):
     return _log_phi_pair_sorted((np.log(xs - p.get("threshold", 0.0)) - p["mu"]) / p["sigma"])
 
 
+class _Bound:
+    """A scipy distribution with its parameters bound, like ``stats.lognorm(...)``.
+
+    scipy's frozen distributions build a fresh distribution instance (docstrings
+    included) on every call, about half a millisecond each; this calls the shared
+    instance with the same arguments instead, so the values are the same.
+    """
+
+    __slots__ = ("dist", "kw")
+
+    def __init__(self, dist: Any, **kw: float) -> None:
+        self.dist, self.kw = dist, kw
+
+    def cdf(self, v):
+        return self.dist.cdf(v, **self.kw)
+
+    def sf(self, v):
+        return self.dist.sf(v, **self.kw)
+
+    def logcdf(self, v):
+        return self.dist.logcdf(v, **self.kw)
+
+    def logsf(self, v):
+        return self.dist.logsf(v, **self.kw)
+
+    def ppf(self, q):
+        return self.dist.ppf(q, **self.kw)
+
+    def logpdf(self, v):
+        return self.dist.logpdf(v, **self.kw)
+
+
 def _frozen_lognormal(p: dict[str, float]):
-    return stats.lognorm(s=p["sigma"], loc=p.get("threshold", 0.0), scale=math.exp(p["mu"]))
+    return _Bound(stats.lognorm, s=p["sigma"], loc=p.get("threshold", 0.0), scale=math.exp(p["mu"]))
 
 
 # lognormal (3-parameter) -----------------------------------------------------------------
@@ -496,7 +528,7 @@ def _lcs_exponential(xs: np.ndarray, p: dict[str, float]):
 _FAMILIES: dict[str, _Family] = {
     "normal": _Family(
         "normal", 2, "real", _fit_normal, _ll_normal, _lcs_normal,
-        lambda p: stats.norm(loc=p["mean"], scale=p["sigma"]),
+        lambda p: _Bound(stats.norm, loc=p["mean"], scale=p["sigma"]),
         "maximum likelihood, closed form (sigma with divisor n)",
     ),
     "lognormal": _Family(
@@ -511,17 +543,17 @@ _FAMILIES: dict[str, _Family] = {
     ),
     "weibull": _Family(
         "Weibull", 2, "positive", _fit_weibull, _ll_weibull, _lcs_weibull,
-        lambda p: stats.weibull_min(c=p["shape"], scale=p["scale"]),
+        lambda p: _Bound(stats.weibull_min, c=p["shape"], scale=p["scale"]),
         "maximum likelihood, safeguarded Newton on the shape equation",
     ),
     "gamma": _Family(
         "gamma", 2, "positive", _fit_gamma, _ll_gamma, _lcs_gamma,
-        lambda p: stats.gamma(a=p["shape"], scale=p["scale"]),
+        lambda p: _Bound(stats.gamma, a=p["shape"], scale=p["scale"]),
         "maximum likelihood, Newton on ln a − digamma(a) = ln(mean) − mean(ln x)",
     ),
     "exponential": _Family(
         "exponential", 1, "positive", _fit_exponential, _ll_exponential, _lcs_exponential,
-        lambda p: stats.expon(scale=p["scale"]),
+        lambda p: _Bound(stats.expon, scale=p["scale"]),
         "maximum likelihood, closed form (scale = mean)",
     ),
 }
