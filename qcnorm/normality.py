@@ -46,6 +46,9 @@ __all__ = [
 def anderson_darling_a2(log_cdf_sorted: np.ndarray, log_sf_sorted: np.ndarray) -> float:
     r"""Anderson–Darling A² from log F(x_(i)) and log(1 − F(x_(i))) of the SORTED sample.
 
+    Two-dimensional input holds one sorted sample per row and gives an array of A²,
+    one per row (used to score many candidate fits at once).
+
     Notes
     -----
     A² = −n − (1/n) Σ_{i=1}^{n} (2i − 1) [ln F(x_(i)) + ln(1 − F(x_(n+1−i)))]
@@ -54,9 +57,11 @@ def anderson_darling_a2(log_cdf_sorted: np.ndarray, log_sf_sorted: np.ndarray) -
     """
     lc = np.asarray(log_cdf_sorted, dtype=np.float64)
     ls = np.asarray(log_sf_sorted, dtype=np.float64)
-    n = lc.size
-    s = np.dot(_ad_weights(n), lc + ls[::-1])
-    return float(-n - s / n)
+    n = lc.shape[-1]
+    s = (lc + ls[..., ::-1]) @ _ad_weights(n)
+    if np.ndim(s) == 0:
+        return float(-n - s / n)
+    return -n - s / n
 
 
 @lru_cache(maxsize=8)
@@ -77,6 +82,8 @@ def _log_phi_pair_sorted(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     rounding, in about a third of the time; because ``z`` is ascending the two sides
     are a prefix and a suffix, so no masking is needed.
     """
+    if z.ndim != 1:  # one sorted sample per row
+        return _log_phi_pair(z)
     k = int(np.searchsorted(z, 0.0))  # z[:k] < 0 <= z[k:]
     az = np.abs(z)
     np.negative(az, out=az)
@@ -91,6 +98,20 @@ def _log_phi_pair_sorted(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     lc = np.concatenate((log_tail[:k], log_body[k:]))
     ls = np.concatenate((log_body[:k], log_tail[k:]))
     return lc, ls
+
+
+def _log_phi_pair(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """ln Φ(z) and ln Φ(−z) for any array ``z`` (see ``_log_phi_pair_sorted``)."""
+    az = -np.abs(z)
+    tail = ndtr(az)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        log_tail = np.log(tail)
+        bad = tail == 0.0
+        if bad.any():
+            log_tail[bad] = log_ndtr(az[bad])
+        log_body = np.log1p(-tail)
+    neg = z < 0.0
+    return np.where(neg, log_tail, log_body), np.where(neg, log_body, log_tail)
 
 
 # --------------------------------------------------------------------------------------

@@ -1053,7 +1053,7 @@ class Johnson(Transform):
         return "This Johnson SL fit needs x above its threshold; refit on data that cover the new range."
 
     def _fit(self, x: np.ndarray) -> None:
-        from .normality import anderson_darling_a2
+        from .normality import _log_phi_pair_sorted, anderson_darling_a2
 
         n = x.size
         zmax = float(special.ndtri(1.0 - 0.5 / n)) / 3.0
@@ -1094,10 +1094,9 @@ class Johnson(Transform):
                 mu = g.mean(axis=1, keepdims=True)
                 sd = g.std(axis=1, ddof=1, keepdims=True)
                 w = (g - mu) / sd
-                lc, ls = special.log_ndtr(w), special.log_ndtr(-w)
-                for row, k in enumerate(sel):
-                    if np.all(np.isfinite(w[row])):
-                        a2[k] = anderson_darling_a2(lc[row], ls[row])
+                ok = np.isfinite(w).all(axis=1)
+                if ok.any():  # every candidate's A² in one vectorised pass
+                    a2[sel[ok]] = anderson_darling_a2(*_log_phi_pair_sorted(w[ok]))
         best = int(np.argmin(a2))
         if not np.isfinite(a2[best]):
             raise DataError(f"The Johnson fits to these {n} values are numerically degenerate. Use Yeo–Johnson instead.")
