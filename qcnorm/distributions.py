@@ -721,7 +721,9 @@ def fit_distribution(x: Any, name: str) -> DistributionFit:
     return _fit_sorted(name, xs)
 
 
-def fit_distributions(x: Any, names: str | Iterable[str] = "auto") -> DistributionRanking:
+def fit_distributions(
+    x: Any, names: str | Iterable[str] = "auto", *, _sorted: np.ndarray | None = None
+) -> DistributionRanking:
     """Fit several families to the same data and rank them by AIC.
 
     Parameters
@@ -755,7 +757,9 @@ def fit_distributions(x: Any, names: str | Iterable[str] = "auto") -> Distributi
         chosen = [_check_name(nm, func) for nm in names]
         if not chosen:
             raise ConfigError(f"The 'names' parameter of {func} must name at least one family or be 'auto'.")
-    xs = np.sort(check_sample(x, "x", func, min_n=FIT_MIN_N))
+    # ``_sorted`` is private plumbing for analyze(), which sorts once for all its steps:
+    # np.sort of the already validated x, trusted as is.
+    xs = np.sort(check_sample(x, "x", func, min_n=FIT_MIN_N)) if _sorted is None else _sorted
     fits: list[DistributionFit] = []
     skipped: list[tuple[str, str]] = []
     for nm in dict.fromkeys(chosen):

@@ -182,6 +182,8 @@ def choose_transform(
     candidates: str | Sequence[str] = "auto",
     subgroups: Any = None,
     round_lambda: bool = True,
+    *,
+    _sorted: np.ndarray | None = None,
 ) -> TransformChoice:
     """Fit the candidate transforms, rank them and choose one.
 
@@ -238,7 +240,9 @@ def choose_transform(
     """
     arr = check_sample(x, "x", "choose_transform", min_n=MIN_N_SELECTION)
     names, single = _resolve(candidates)
-    xs = np.sort(arr)  # sorted once: every transform is increasing
+    # Sorted once (every transform is increasing). ``_sorted`` is private plumbing for
+    # analyze(), which sorts the data once for all its steps: np.sort(x), trusted as is.
+    xs = np.sort(arr) if _sorted is None else _sorted
     fits: list[CandidateFit] = []
     for fam in names:
         opts = {"round_lambda": round_lambda} if fam == "boxcox" else {}
