@@ -47,7 +47,7 @@ from scipy.special import (
 from ._results import Result
 from ._validation import check_optional_float, check_sample
 from .errors import ConfigError, DataError, DomainError
-from .normality import _log_phi_pair_sorted, anderson_darling_a2
+from .normality import _log_phi_pair_sorted, _trusted_sorted_ok, anderson_darling_a2
 
 __all__ = [
     "DistributionFit",
@@ -758,8 +758,10 @@ def fit_distributions(
         if not chosen:
             raise ConfigError(f"The 'names' parameter of {func} must name at least one family or be 'auto'.")
     # ``_sorted`` is private plumbing for analyze(), which sorts once for all its steps:
-    # np.sort of the already validated x, trusted as is.
-    xs = np.sort(check_sample(x, "x", func, min_n=FIT_MIN_N)) if _sorted is None else _sorted
+    # np.sort(x), used as is (its ends are checked, so bad data gets the usual message).
+    xs = _sorted
+    if xs is None or not _trusted_sorted_ok(xs, FIT_MIN_N):
+        xs = np.sort(check_sample(x, "x", func, min_n=FIT_MIN_N))  # the usual messages
     fits: list[DistributionFit] = []
     skipped: list[tuple[str, str]] = []
     for nm in dict.fromkeys(chosen):

@@ -272,6 +272,13 @@ def anderson_darling(x, *, presorted: bool = False) -> ADResult:
     return _ad_from_sorted(xs)
 
 
+def _trusted_sorted_ok(xs: np.ndarray, min_n: int) -> bool:
+    """Whether an ascending sample passes check_sample's tests (enough values, all finite,
+    not constant), read off its ends; used with the private ``_sorted`` plumbing so that
+    bad data still gets check_sample's own message."""
+    return bool(xs.size >= min_n and np.isfinite(xs[0]) and np.isfinite(xs[-1]) and xs[-1] > xs[0])
+
+
 def _sorted_sample(x, func: str, min_n: int) -> np.ndarray:
     """Validate once and sort once."""
     return np.sort(check_sample(x, "x", func, min_n=min_n))
@@ -1018,8 +1025,10 @@ def normality_report(x, *, _sorted: np.ndarray | None = None) -> NormalityReport
     formulas and references.
     """
     # ``_sorted`` is private plumbing for analyze(), which sorts once for all its steps:
-    # np.sort of the already validated x, trusted as is.
-    xs = _sorted_sample(x, "normality_report", REPORT_MIN_N) if _sorted is None else _sorted
+    # np.sort(x), used as is (its ends are checked, so bad data gets the usual message).
+    xs = _sorted
+    if xs is None or not _trusted_sorted_ok(xs, REPORT_MIN_N):
+        xs = _sorted_sample(x, "normality_report", REPORT_MIN_N)  # the usual messages
     n = xs.size
     dev = _deviations(xs)
     ad = _ad_from_sorted(xs, dev)
