@@ -47,7 +47,7 @@ from scipy.special import (
 from ._results import Result
 from ._validation import check_optional_float, check_sample
 from .errors import ConfigError, DataError, DomainError
-from .normality import _log_phi_pair_sorted, _trusted_sorted_ok, anderson_darling_a2
+from .normality import _log_phi_pair_sorted, _trusted_sorted_ok, _vdot, anderson_darling_a2
 
 __all__ = [
     "DistributionFit",
@@ -260,7 +260,7 @@ def _fit_normal(xs: np.ndarray) -> dict[str, float]:
 
 def _ll_normal(xs: np.ndarray, p: dict[str, float]) -> float:
     z = (xs - p["mean"]) / p["sigma"]
-    return float(-0.5 * xs.size * _LN_2PI - xs.size * math.log(p["sigma"]) - 0.5 * np.dot(z, z))
+    return float(-0.5 * xs.size * _LN_2PI - xs.size * math.log(p["sigma"]) - 0.5 * _vdot(z, z))
 
 
 def _lcs_normal(xs: np.ndarray, p: dict[str, float]):
@@ -280,7 +280,7 @@ def _ll_lognormal(xs: np.ndarray, p: dict[str, float]) -> float:
     lx = np.log(xs - p.get("threshold", 0.0))
     z = (lx - p["mu"]) / p["sigma"]
     n = xs.size
-    return float(-0.5 * n * _LN_2PI - n * math.log(p["sigma"]) - 0.5 * np.dot(z, z) - lx.sum())
+    return float(-0.5 * n * _LN_2PI - n * math.log(p["sigma"]) - 0.5 * _vdot(z, z) - lx.sum())
 
 
 def _lcs_lognormal(xs: np.ndarray, p: dict[str, float]):
@@ -335,9 +335,9 @@ def _ln3_score(xs: np.ndarray, theta: float) -> float:
     d = xs - theta
     y = np.log(d)
     yc = y - y.mean()
-    s2 = np.dot(yc, yc) / xs.size
+    s2 = _vdot(yc, yc) / xs.size
     w = 1.0 / d
-    return float(w.sum() + np.dot(yc, w) / s2)
+    return float(w.sum() + _vdot(yc, w) / s2)
 
 
 def _ln3_root(xs: np.ndarray, log_d: np.ndarray, xtol: float) -> float | None:
@@ -408,8 +408,8 @@ def _fit_weibull(xs: np.ndarray) -> dict[str, float]:
         # (z = x / max x); g is increasing in k.
         e = np.exp(k * l0)
         s0 = e.sum()
-        s1 = np.dot(e, l0)
-        s2 = np.dot(e, l0 * l0)
+        s1 = _vdot(e, l0)
+        s2 = _vdot(e, l0 * l0)
         g = s1 / s0 - 1.0 / k - mean_l
         dg = (s2 * s0 - s1 * s1) / (s0 * s0) + 1.0 / (k * k)
         return g, dg
@@ -598,7 +598,7 @@ def _ad_p_value(name: str, xs: np.ndarray, params: dict[str, float], a2: float) 
         # Case 3 of D'Agostino & Stephens: A² with x̄ and s (divisor n − 1), then A*.
         v = xs if name == "normal" else np.log(xs)
         mu = float(v.mean())
-        sd = float(np.sqrt(np.dot(v - mu, v - mu) / (n - 1)))
+        sd = float(np.sqrt(_vdot(v - mu, v - mu) / (n - 1)))
         a2_case3 = anderson_darling_a2(*_log_phi_pair_sorted((v - mu) / sd))
         a_star = a2_case3 * (1.0 + 0.75 / n + 2.25 / n**2)
         where = "" if name == "normal" else " on ln x"

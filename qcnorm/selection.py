@@ -148,19 +148,19 @@ def _resolve(candidates: str | Sequence[str]) -> tuple[tuple[str, ...], bool]:
 
 def _evaluate(family: str, t: Transform, xs: np.ndarray) -> CandidateFit:
     """Scores of a fitted transform on the sorted sample ``xs``."""
-    from .normality import anderson_darling
+    from .normality import _vdot, anderson_darling
 
     n = xs.size
     ty = t.transform(xs)  # increasing, so still sorted
     mu = float(ty.mean())
     dev = ty - mu
-    m2 = float(dev @ dev) / n
+    m2 = _vdot(dev, dev) / n
     if not (m2 > 0 and math.isfinite(m2)):
         raise DataError("the transformed values have no spread")
     # ln L of the original data = Σ ln φ(T(x); μ̂, σ̂) + Σ ln T'(x), μ̂, σ̂ the MLE of T(x).
     loglik = -0.5 * n * (math.log(2.0 * math.pi * m2) + 1.0) + float(t.log_jacobian(xs).sum())
     k = t.n_model_params
-    skew = float((dev * dev) @ dev) / n / m2**1.5
+    skew = _vdot(dev * dev, dev) / n / m2**1.5
     ad = anderson_darling(ty, presorted=True)
     return CandidateFit(
         name=t.name, family=family, params=t.params_, loglik=loglik, aic=2.0 * k - 2.0 * loglik,

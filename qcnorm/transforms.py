@@ -45,6 +45,7 @@ from scipy import optimize, special, stats
 from ._results import Result
 from ._validation import as_float_array, check_sample
 from .errors import ConfigError, DataError, DomainError, NotFittedError
+from .normality import _vdot
 
 __all__ = [
     "Domain",
@@ -427,7 +428,7 @@ def _lognormal3_threshold(x: np.ndarray, owner: Transform) -> float:
         np.subtract(x, tau, out=buf)
         np.log(buf, out=buf)
         s1 = buf.sum()
-        var = float(buf @ buf) / n - (s1 / n) ** 2
+        var = _vdot(buf, buf) / n - (s1 / n) ** 2
         if not var > 0:
             return -math.inf
         return -0.5 * n * (math.log(2 * math.pi * var) + 1.0) - s1
@@ -577,7 +578,7 @@ class _BoxCoxProfile:
         self.lbar = float(L.mean())
         self.u = L - self.lbar
         self.sum_l = float(L.sum())
-        self.var_u = float(self.u @ self.u) / self.n
+        self.var_u = _vdot(self.u, self.u) / self.n
         self.buf = np.empty_like(self.u)
 
     def __call__(self, lam: float) -> float:
@@ -589,7 +590,7 @@ class _BoxCoxProfile:
                 np.multiply(self.u, lam, out=self.buf)
                 np.expm1(self.buf, out=self.buf)
                 m = self.buf.sum() / n
-                v = float(self.buf @ self.buf) / n - m * m
+                v = _vdot(self.buf, self.buf) / n - m * m
             if not (v > 0 and math.isfinite(v)):
                 return -math.inf
             log_var = 2.0 * lam * self.lbar + math.log(v) - 2.0 * math.log(abs(lam))
@@ -615,7 +616,7 @@ class _YeoJohnsonProfile:
             mean = (yp.sum() + ym.sum()) / self.n
             yp -= mean
             ym -= mean
-            v = (float(yp @ yp) + float(ym @ ym)) / self.n
+            v = (_vdot(yp, yp) + _vdot(ym, ym)) / self.n
         if not (v > 0 and math.isfinite(v)):
             return -math.inf
         return -0.5 * self.n * math.log(v) + (lam - 1.0) * self.s
