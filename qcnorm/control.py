@@ -32,9 +32,12 @@ from __future__ import annotations
 
 import math
 import numbers
-from collections.abc import Callable, Iterable, Mapping
+from collections.abc import Callable, Iterable, Mapping, Sequence
+import gc
+from collections import deque
 from dataclasses import dataclass
-from itertools import compress
+from itertools import chain, repeat
+from operator import itemgetter
 from typing import Any, ClassVar
 
 import numpy as np
@@ -447,60 +450,59 @@ class _Hit:
     level: float = 0.0  # k-of-m rules: the sigma level the reported points exceed
 
 
+def _pick(first: np.ndarray, a: str, b: str) -> list[str]:
+    """``a`` where ``first`` is True, else ``b`` (the same two string objects, no copies)."""
+    return np.array([b, a], dtype=object)[first.astype(np.intp)].tolist()
+
+
 def _beyond(z: np.ndarray, rule: str, k: float) -> _Hit:
     hi, lo = z > k, z < -k
     ends = np.flatnonzero(hi | lo)
-    words = [
-        f"a point more than {k:g} sigma {'above' if z[i] > 0 else 'below'} the centre line" for i in ends
-    ]
+    words = _pick(z[ends] > 0, f"a point more than {k:g} sigma above the centre line",
+                  f"a point more than {k:g} sigma below the centre line")
     return _Hit(rule, ends, ends, None, words)
 
 
 def _k_of_m(z: np.ndarray, rule: str, k: int, m: int, level: float) -> _Hit:
-    ends_all, quals, words = [], [], []
-    for sign, side in ((1.0, "above"), (-1.0, "below")):
+    ends_all, quals = [], []
+    for sign in (1.0, -1.0):
         cond = sign * z > level
         # Trigger where the window holds k of m AND the current point is one of them,
         # so that one pattern is flagged where it is completed, not again as it slides.
         hit = (_window_count(cond, m) >= k) & cond
         e = np.flatnonzero(hit)
         ends_all.append(e)
-        quals.append(np.repeat(sign, e.size))
-        words += [f"{k} of {m} points in a row more than {level:g} sigma {side} the centre line"] * e.size
+        quals.append(np.full(e.size, sign))
     ends = np.concatenate(ends_all)
     signs = np.concatenate(quals)
     order = np.argsort(ends, kind="stable")
-    return _Hit(
-        rule,
-        ends[order],
-        np.maximum(ends[order] - m + 1, 0),
-        signs[order],
-        [words[i] for i in order],
-        level,
-    )
+    ends, signs = ends[order], signs[order]
+    words = _pick(signs > 0, f"{k} of {m} points in a row more than {level:g} sigma above the centre line",
+                  f"{k} of {m} points in a row more than {level:g} sigma below the centre line")
+    return _Hit(rule, ends, np.maximum(ends - m + 1, 0), signs, words, level)
+
+
+def _two_sided(rule: str, w: int, hits: tuple[np.ndarray, np.ndarray], words: tuple[str, str]) -> _Hit:
+    """Merge the hits of the two directions of a run rule (ends in time order)."""
+    ends = np.concatenate(hits)
+    first = np.concatenate((np.ones(hits[0].size, dtype=bool), np.zeros(hits[1].size, dtype=bool)))
+    order = np.argsort(ends, kind="stable")
+    ends = ends[order]
+    return _Hit(rule, ends, ends - w + 1, None, _pick(first[order], *words))
 
 
 def _run_same_side(z: np.ndarray, rule: str, w: int) -> _Hit:
-    ends_all, words = [], []
-    for cond, side in ((z > 0, "above"), (z < 0, "below")):
-        e = np.flatnonzero(_window_count(cond, w) == w)
-        ends_all.append(e)
-        words += [f"{w} points in a row {side} the centre line"] * e.size
-    ends = np.concatenate(ends_all)
-    order = np.argsort(ends, kind="stable")
-    return _Hit(rule, ends[order], ends[order] - w + 1, None, [words[i] for i in order])
+    hits = tuple(np.flatnonzero(_window_count(cond, w) == w) for cond in (z > 0, z < 0))
+    return _two_sided(rule, w, hits, (f"{w} points in a row above the centre line",
+                                      f"{w} points in a row below the centre line"))
 
 
 def _trend(z: np.ndarray, rule: str, w: int) -> _Hit:
     d = np.diff(z)
-    ends_all, words = [], []
-    for cond, how in ((d > 0, "increasing"), (d < 0, "decreasing")):
-        e = np.flatnonzero(_window_count(cond, w - 1) == w - 1) + 1  # diff j joins j, j+1
-        ends_all.append(e)
-        words += [f"{w} points in a row steadily {how}"] * e.size
-    ends = np.concatenate(ends_all)
-    order = np.argsort(ends, kind="stable")
-    return _Hit(rule, ends[order], ends[order] - w + 1, None, [words[i] for i in order])
+    # diff j joins points j and j + 1
+    hits = tuple(np.flatnonzero(_window_count(cond, w - 1) == w - 1) + 1 for cond in (d > 0, d < 0))
+    return _two_sided(rule, w, hits, (f"{w} points in a row steadily increasing",
+                                      f"{w} points in a row steadily decreasing"))
 
 
 def _alternating(z: np.ndarray, rule: str, w: int) -> _Hit:
@@ -513,6 +515,72 @@ def _alternating(z: np.ndarray, rule: str, w: int) -> _Hit:
 def _run_cond(z: np.ndarray, rule: str, w: int, cond: np.ndarray, words: str) -> _Hit:
     ends = np.flatnonzero(_window_count(cond, w) == w)
     return _Hit(rule, ends, ends - w + 1, None, [words] * ends.size)
+
+
+# Bulk construction of Violation objects. A run rule can fire at most points of a long
+# unstable series (10^6 points -> over a million signals), and the frozen dataclass
+# __init__ (one object.__setattr__ per field) then dominates. The objects below are
+# built by setting the same four slots directly: identical Violation objects, about
+# twice as fast, with the cyclic garbage collector paused while they are made.
+_NEW = object.__new__
+_SET_RULE, _SET_DESCRIPTION, _SET_INDEX, _SET_POINTS = (
+    Violation.__dict__[f].__set__ for f in ("rule", "description", "index", "points")
+)
+
+
+def _make_violations(rule: str, words: list[str], index: list[int], points: Sequence[tuple[int, ...]]) -> list[Violation]:
+    h = len(index)
+    objs = list(map(_NEW, repeat(Violation, h)))
+    for setter, values in ((_SET_RULE, repeat(rule, h)), (_SET_DESCRIPTION, words),
+                           (_SET_INDEX, index), (_SET_POINTS, points)):
+        deque(map(setter, objs, values), maxlen=0)
+    return objs
+
+
+def _window_tuples(
+    starts: np.ndarray, width: int, mask: np.ndarray | None, number: Any
+) -> Sequence[tuple[int, ...]]:
+    """The points of each pattern as a tuple of point numbers.
+
+    Pattern i covers compressed positions starts[i] … starts[i] + width − 1, of which
+    only the columns where ``mask`` is True are kept (all when ``mask`` is None).
+    ``number`` maps a compressed position to its point number (a tuple of shared int
+    objects, or an int array); built column-wise, one tuple per pattern.
+    """
+    h = starts.size
+    if isinstance(number, tuple):
+        take = number.__getitem__
+        if mask is None:  # contiguous windows: tuple slices of the shared ints
+            return list(map(take, map(slice, starts.tolist(), (starts + width).tolist())))
+        column = lambda sel, j: list(map(take, (starts[sel] + j).tolist()))  # noqa: E731
+    else:
+        pos = starts[:, None] + np.arange(width)[None, :]
+        if mask is None:
+            return list(zip(*number[pos].T.tolist()))
+        column = lambda sel, j: number[starts[sel] + j].tolist()  # noqa: E731
+    code = (mask.astype(np.int64) << np.arange(width)).sum(axis=1)  # kept columns, as bits
+    perm, parts = [], []
+    for c in np.unique(code).tolist():
+        sel = np.flatnonzero(code == c)
+        perm.append(sel)
+        parts.append(zip(*(column(sel, j) for j in range(width) if (c >> j) & 1)))
+    flat = list(chain.from_iterable(parts))
+    if h == 1:
+        return flat
+    return itemgetter(*np.argsort(np.concatenate(perm)).tolist())(flat)
+
+
+class _GcPaused:
+    """Pause the cyclic garbage collector while many small objects are made (it would
+    otherwise rescan them again and again); restores the previous state."""
+
+    def __enter__(self) -> None:
+        self.was = gc.isenabled()
+        gc.disable()
+
+    def __exit__(self, *exc: Any) -> None:
+        if self.was:
+            gc.enable()
 
 
 _RuleFn = Callable[[np.ndarray], _Hit]
@@ -615,31 +683,41 @@ def run_rules(z: Any, rules: str = "western_electric", *, excluded: Any = None) 
     if zc.size == 0:
         return ()
 
-    contiguous = orig.size == zz.size  # nothing excluded: compressed index = point index
-    orig_list: Any = range(zz.size) if contiguous else orig.tolist()
+    # Point numbers of the compressed positions. When the signals cover many points (an
+    # unstable series), they are made once as shared int objects, so that the millions of
+    # point tuples do not each hold their own copies.
+    number: Any = orig
     ends_all, order_all, made = [], [], []
-    for order, (_, fn) in enumerate(table):
-        hit = fn(zc)
-        ends, starts = hit.ends.tolist(), hit.starts.tolist()
-        if hit.qual is None:
-            pts = [tuple(orig_list[a : b + 1]) for a, b in zip(starts, ends)]  # range slices too
-        else:
-            # report the points of the window beyond the level on the pattern's side
-            width = int(hit.ends[0] - hit.starts[0] + 1) if hit.ends.size else 0
-            idx = hit.starts[:, None] + np.arange(width)[None, :]
-            beyond = (hit.qual[:, None] * zc[idx] > hit.level).tolist()
-            rows = orig[idx].tolist()
-            pts = [tuple(compress(r, m)) for r, m in zip(rows, beyond)]
-        made.append(
-            [Violation(hit.rule, w, orig_list[e], p) for w, e, p in zip(hit.words, ends, pts)]
-        )
-        ends_all.append(orig[hit.ends])
-        order_all.append(np.full(hit.ends.size, order))
-    flat = [v for group in made for v in group]
-    if not flat:
-        return ()
-    sort = np.lexsort((np.concatenate(order_all), np.concatenate(ends_all)))
-    return tuple(flat[i] for i in sort.tolist())
+    with _GcPaused():
+        for order, (_, fn) in enumerate(table):
+            hit = fn(zc)
+            if hit.ends.size == 0:
+                continue
+            widths = hit.ends - hit.starts + 1
+            if np.any(widths != widths[0]):  # pragma: no cover - every rule has a fixed length
+                raise AssertionError(f"run rule {hit.rule} has patterns of different lengths")
+            width = int(widths[0])
+            if not isinstance(number, tuple) and hit.ends.size * width >= zc.size // 4:
+                number = tuple(orig.tolist())
+            # k-of-m rules report only the points of the window beyond the level on the
+            # pattern's side; the other rules report the whole window.
+            mask = None
+            if hit.qual is not None:
+                mask = hit.qual[:, None] * zc[hit.starts[:, None] + np.arange(width)[None, :]] > hit.level
+            pts = _window_tuples(hit.starts, width, mask, number)
+            index = orig[hit.ends]
+            index_objs = (list(map(number.__getitem__, hit.ends.tolist())) if isinstance(number, tuple)
+                          else index.tolist())
+            made.append(_make_violations(hit.rule, hit.words, index_objs, pts))
+            ends_all.append(index)
+            order_all.append(np.full(hit.ends.size, order))
+        if not made:
+            return ()
+        flat = list(chain.from_iterable(made))
+        sort = np.lexsort((np.concatenate(order_all), np.concatenate(ends_all)))
+        if sort.size == 1:
+            return (flat[0],)
+        return itemgetter(*sort.tolist())(flat)
 
 
 # ======================================================================================
