@@ -97,19 +97,22 @@ def _log_phi_pair_sorted(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """
     if z.ndim != 1:  # one sorted sample per row
         return _log_phi_pair(z)
+    n = z.size
     k = int(np.searchsorted(z, 0.0))  # z[:k] < 0 <= z[k:]
-    az = np.abs(z)
-    np.negative(az, out=az)
-    tail = ndtr(az)
-    with np.errstate(divide="ignore"):
-        log_tail = np.log(tail)
-    bad = tail == 0.0
-    if bad.any():
-        log_tail[bad] = log_ndtr(az[bad])
-    np.negative(tail, out=tail)
-    log_body = np.log1p(tail, out=tail)
-    lc = np.concatenate((log_tail[:k], log_body[k:]))
-    ls = np.concatenate((log_body[:k], log_tail[k:]))
+    lc = np.empty(n)
+    ls = np.empty(n)
+    # The small tail is Φ(z) below 0 and Φ(−z) above; written straight into place.
+    for tail_of, small, large in ((z[:k], lc[:k], ls[:k]), (-z[k:], ls[k:], lc[k:])):
+        if tail_of.size == 0:
+            continue
+        tail = ndtr(tail_of)
+        with np.errstate(divide="ignore"):
+            np.log(tail, out=small)
+        if tail[0] == 0.0 or tail[-1] == 0.0:  # underflow at the far end (|z| > ~37)
+            bad = tail == 0.0
+            small[bad] = log_ndtr(tail_of[bad])
+        np.negative(tail, out=tail)
+        np.log1p(tail, out=large)
     return lc, ls
 
 
