@@ -896,12 +896,14 @@ def _dispersion_limits(chart: str, sizes: np.ndarray, sigma: float) -> tuple[np.
     """Centre, UCL, LCL of the dispersion chart per point, from sigma."""
     if chart == "individuals":
         k = np.full(sizes.size, 2)
+        kinds = np.array([2])
     else:
         k = sizes
+        kinds = np.unique(k)
     center = np.full(sizes.size, np.nan)
     ucl = np.full(sizes.size, np.nan)
     lcl = np.full(sizes.size, np.nan)
-    for s in np.unique(k):
+    for s in kinds:
         if s < 2:
             continue
         sel = k == s
@@ -1180,6 +1182,9 @@ def limits_in_units(chart: ControlChart, transform: Any) -> UnitsLimits:
 
     def back(v: np.ndarray) -> np.ndarray:
         v = np.asarray(v, dtype=np.float64)
+        if v.size > 1 and v[0] == v[-1] and np.all(v == v[0]):
+            # one limit for every point (equal subgroup sizes): map it once (same numbers)
+            return np.full(v.shape, back(v[:1])[0])
         out = np.full(v.shape, np.nan)
         inside = (v > low) & (v < high)
         if inside.any():
