@@ -588,7 +588,9 @@ def _exponential_ad_p(a2: float, n: int) -> float:
     return min(1.0, max(0.0, p))
 
 
-def _ad_p_value(name: str, xs: np.ndarray, params: dict[str, float], a2: float) -> tuple[float | None, str]:
+def _ad_p_value(
+    name: str, xs: np.ndarray, params: dict[str, float], a2: float, case3: Any = None
+) -> tuple[float | None, str]:
     n = xs.size
     if name in ("normal", "lognormal"):
         from .normality import AD_MIN_N, ad_p_value
@@ -596,10 +598,13 @@ def _ad_p_value(name: str, xs: np.ndarray, params: dict[str, float], a2: float) 
         if n < AD_MIN_N:
             return None, f"Anderson–Darling p-value needs at least {AD_MIN_N} values (have {n})."
         # Case 3 of D'Agostino & Stephens: A² with x̄ and s (divisor n − 1), then A*.
-        v = xs if name == "normal" else np.log(xs)
-        mu = float(v.mean())
-        sd = float(np.sqrt(_vdot(v - mu, v - mu) / (n - 1)))
-        a2_case3 = anderson_darling_a2(*_log_phi_pair_sorted((v - mu) / sd))
+        if case3 is not None and case3.n == n:  # the same A², already computed (analyze)
+            a2_case3 = case3.statistic
+        else:
+            v = xs if name == "normal" else np.log(xs)
+            mu = float(v.mean())
+            sd = float(np.sqrt(_vdot(v - mu, v - mu) / (n - 1)))
+            a2_case3 = anderson_darling_a2(*_log_phi_pair_sorted((v - mu) / sd))
         a_star = a2_case3 * (1.0 + 0.75 / n + 2.25 / n**2)
         where = "" if name == "normal" else " on ln x"
         return ad_p_value(a_star), (
@@ -645,7 +650,7 @@ def _support_problem(name: str, xs: np.ndarray) -> str | None:
     return None
 
 
-def _fit_sorted(name: str, xs: np.ndarray) -> DistributionFit:
+def _fit_sorted(name: str, xs: np.ndarray, case3: Any = None) -> DistributionFit:
     fam = _FAMILIES[name]
     problem = _support_problem(name, xs)
     if problem:
@@ -654,7 +659,7 @@ def _fit_sorted(name: str, xs: np.ndarray) -> DistributionFit:
     ll = fam.loglik(xs, params)
     lc, ls = fam.log_cdf_sf(xs, params)
     a2 = anderson_darling_a2(lc, ls)
-    p, note = _ad_p_value(name, xs, params, a2)
+    p, note = _ad_p_value(name, xs, params, a2, case3)
     return DistributionFit(
         name=name,
         params=params,
@@ -722,7 +727,11 @@ def fit_distribution(x: Any, name: str) -> DistributionFit:
 
 
 def fit_distributions(
-    x: Any, names: str | Iterable[str] = "auto", *, _sorted: np.ndarray | None = None
+    x: Any,
+    names: str | Iterable[str] = "auto",
+    *,
+    _sorted: np.ndarray | None = None,
+    _case3: dict | None = None,
 ) -> DistributionRanking:
     """Fit several families to the same data and rank them by AIC.
 
@@ -766,7 +775,9 @@ def fit_distributions(
     skipped: list[tuple[str, str]] = []
     for nm in dict.fromkeys(chosen):
         try:
-            fits.append(_fit_sorted(nm, xs))
+            # ``_case3`` (private, for analyze()): {"normal": ADResult of x, "lognormal":
+            # ADResult of ln x} (case 3 of the normal test), already computed elsewhere.
+            fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
         except DataError as exc:  # includes DomainError
             skipped.append((nm, str(exc)))
     if not fits:

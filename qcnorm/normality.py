@@ -1018,7 +1018,7 @@ def _verdict(n, ad, sw, sk, ku, res) -> tuple[str, list[str]]:
     return verdict, warns
 
 
-def normality_report(x, *, _sorted: np.ndarray | None = None) -> NormalityReport:
+def normality_report(x, *, _sorted: np.ndarray | None = None, _ad: ADResult | None = None) -> NormalityReport:
     """Run every normality diagnostic on ``x`` with one validation and one sort.
 
     Parameters
@@ -1047,7 +1047,9 @@ def normality_report(x, *, _sorted: np.ndarray | None = None) -> NormalityReport
         xs = _sorted_sample(x, "normality_report", REPORT_MIN_N)  # the usual messages
     n = xs.size
     dev = _deviations(xs)
-    ad = _ad_from_sorted(xs, dev)
+    # ``_ad`` (private, for analyze()): the Anderson–Darling result of this very sample,
+    # already computed by choose_transform.
+    ad = _ad if _ad is not None and _ad.n == n else _ad_from_sorted(xs, dev)
     sw = _shapiro_from_sorted(xs, dev)
     m2, m3, m4 = _central_moments(xs, dev)
     sk = _skewness_from_moments(n, m2, m3)

@@ -146,8 +146,9 @@ def _resolve(candidates: str | Sequence[str]) -> tuple[tuple[str, ...], bool]:
     return tuple(sorted(dict.fromkeys(names), key=SIMPLICITY_ORDER.index)), single
 
 
-def _evaluate(family: str, t: Transform, xs: np.ndarray) -> CandidateFit:
-    """Scores of a fitted transform on the sorted sample ``xs``."""
+def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = None) -> CandidateFit:
+    """Scores of a fitted transform on the sorted sample ``xs``; ``ad_out[family]`` gets
+    ``(t, ADResult of T(xs))`` when a dict is given (reused by analyze())."""
     from .normality import _vdot, anderson_darling
 
     n = xs.size
@@ -166,6 +167,8 @@ def _evaluate(family: str, t: Transform, xs: np.ndarray) -> CandidateFit:
     k = t.n_model_params
     skew = _vdot(dev * dev, dev) / n / m2**1.5
     ad = anderson_darling(ty, presorted=True)
+    if ad_out is not None:
+        ad_out[family] = (t, ad)
     return CandidateFit(
         name=t.name, family=family, params=t.params_, loglik=loglik, aic=2.0 * k - 2.0 * loglik,
         delta_aic=math.nan, ad_statistic=float(ad.statistic), ad_p_value=float(ad.p_value),
@@ -188,6 +191,7 @@ def choose_transform(
     round_lambda: bool = True,
     *,
     _sorted: np.ndarray | None = None,
+    _ad_out: dict | None = None,
 ) -> TransformChoice:
     """Fit the candidate transforms, rank them and choose one.
 
@@ -246,6 +250,7 @@ def choose_transform(
     names, single = _resolve(candidates)
     # Sorted once (every transform is increasing). ``_sorted`` is private plumbing for
     # analyze(), which sorts the data once for all its steps: np.sort(x), trusted as is.
+    # ``_ad_out`` (private, for analyze()) collects {family: (fitted transform, ADResult)}.
     xs = np.sort(arr) if _sorted is None else _sorted
     fits: list[CandidateFit] = []
     for fam in names:
@@ -253,7 +258,7 @@ def choose_transform(
         t = make_transform(fam, **opts)
         try:
             t.fit(xs)  # sorted values: same fit, and Johnson skips its own sort
-            fits.append(_evaluate(fam, t, xs))
+            fits.append(_evaluate(fam, t, xs, _ad_out))
         except QcnormError as exc:
             if single:
                 raise
