@@ -377,6 +377,7 @@ def analyze(
     # 1. Transform: chosen, requested, or frozen in a baseline.
     choice: TransformChoice | None = None
     phase = "I"
+    ads: dict = {}  # speed: {family: (transform, Anderson–Darling result)} from choose_transform
     if baseline is not None:
         tr = baseline.make_transform()
         reason = (
@@ -387,7 +388,7 @@ def analyze(
     else:
         cands = "auto" if transform == "auto" else transform
         choice = choose_transform(x, candidates=cands, subgroups=subgroups, round_lambda=round_lambda,
-                                  _sorted=xs)
+                                  _sorted=xs, _ad_out=ads)
         tr = choice.transform
         reason = choice.reason
         if transform == "auto" and _spec_beyond_fitted_bound(tr, lsl, usl):
@@ -403,7 +404,10 @@ def analyze(
     y = tr.transform(x)
 
     # 2. Normality before and after.
-    norm_raw = normality_report(x, _sorted=xs)
+    # speed: Anderson–Darling of x and of T(x) were computed for the candidates; reused (private)
+    ad_of = {id(t_): a for t_, a in ads.values()}
+    ad_x = ads["none"][1] if "none" in ads else None
+    norm_raw = normality_report(x, _sorted=xs, _ad=ad_x)
     if tr.name == "none":
         norm_t = norm_raw
     else:
@@ -411,7 +415,7 @@ def analyze(
         ys = tr.transform(xs)
         if not bool(np.all(ys[1:] >= ys[:-1])):
             ys = np.sort(y)
-        norm_t = normality_report(y, _sorted=ys)
+        norm_t = normality_report(y, _sorted=ys, _ad=ad_of.get(id(tr)))
     if norm_raw.resolution.coarse:
         warnings.append(norm_raw.resolution.message)
     if tr.name != "none" and norm_t.ad_p_value is not None and norm_t.ad_p_value < 0.05:
@@ -463,7 +467,9 @@ def analyze(
         )
         warnings.extend(n_ for n_ in cap.notes if n_ not in warnings)
     try:
-        dists = fit_distributions(x, _sorted=xs)
+        log_c = ads.get("log")  # its A² is that of ln x only without a shift
+        ad_ln = log_c[1] if log_c is not None and log_c[0].params_.get("shift") == 0.0 else None
+        dists = fit_distributions(x, _sorted=xs, _case3={"normal": ad_x, "lognormal": ad_ln})
         if cap is not None and dists.best is not None:
             perc = percentile_capability(dists.best, lsl=lsl, usl=usl)
     except QcnormError as exc:
