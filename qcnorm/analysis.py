@@ -35,6 +35,8 @@ __all__ = ["analyze", "Analysis", "Baseline", "Settings", "TRANSFORM_CHOICES", "
 TRANSFORM_CHOICES = ("auto", "none", "log", "boxcox", "yeojohnson", "johnson")
 CHART_CHOICES = ("auto", "individuals", "xbar_r", "xbar_s")
 RULE_CHOICES = ("western_electric", "nelson")
+MAX_MAGNITUDE = 1e50  # beyond this, fourth moments overflow double precision; no real measurement is here
+MIN_SPREAD = 1e-60  # below this, fourth moments underflow double precision
 SMALL_N = 30  # below this, capability intervals are wide (common practice: ≥ 30, better ≥ 100)
 
 
@@ -337,7 +339,12 @@ def analyze(
             subgroups = m.subgroups
         if rows is None:
             rows = m.rows
-        characteristic = characteristic or getattr(m, "characteristic", None) or getattr(m, "column", None)
+        if not characteristic:
+            from .data import split_units
+
+            characteristic = getattr(m, "characteristic", None) or (
+                split_units(str(m.column))[0] if getattr(m, "column", None) else None
+            )
         units = units or getattr(m, "units", None)
         ingest_excluded = tuple(
             {"row": int(e.row), "reason": str(e.reason)} for e in m.report.excluded
@@ -347,6 +354,22 @@ def analyze(
 
     x = check_sample(values, "values", func, min_n=3)
     n = x.size
+    big = np.abs(x) > MAX_MAGNITUDE
+    if big.any():
+        idx = np.flatnonzero(big)
+        raise DataError(
+            f"{idx.size} value(s) have a magnitude above {MAX_MAGNITUDE:g} (first at position {idx[0] + 1}: "
+            f"{x[idx[0]]:g}). No measurement in any unit is that large: check the column chosen and the "
+            "decimal/thousands separators of the file."
+        )
+    spread = float(np.ptp(x))
+    scale = float(np.max(np.abs(x)))
+    if spread < MIN_SPREAD or spread < 1e-10 * scale:
+        raise DataError(
+            f"The values differ by only {spread:.3g} (largest magnitude {scale:.3g}): the spread is too small "
+            "to compute with (it is lost in the precision of the numbers). Express the data in smaller units "
+            "(e.g. µm instead of m) or subtract a nominal value."
+        )
     xs = np.sort(x)  # speed: sorted once here and handed to each step (private _sorted=)
     lsl = check_optional_float(lsl, "lsl", func)
     usl = check_optional_float(usl, "usl", func)

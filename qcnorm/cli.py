@@ -56,7 +56,65 @@ def build_parser() -> argparse.ArgumentParser:
                    help="use '<0.05'-style values at their limit instead of excluding them")
     a.add_argument("--json", action="store_true", help="print the analysis as JSON")
     a.add_argument("--pdf", metavar="OUT.pdf", help="also write the PDF summary")
+    b = sub.add_parser("batch", help="analyse every characteristic of a wide or long file")
+    b.add_argument("file", help="CSV/TSV/XLSX file with one column per characteristic, or a long file")
+    b.add_argument("--specs", metavar="SPECS.csv",
+                   help="spec limits: columns characteristic, lsl, usl, target, required_index, units")
+    b.add_argument("--subgroup", help="column holding subgroup labels (shared by all characteristics)")
+    b.add_argument("--sheet", help="XLSX sheet name")
+    b.add_argument("--out", metavar="summary.csv|.xlsx", help="write the ranked summary table")
+    b.add_argument("--pdf-dir", metavar="DIR", help="write one PDF summary per characteristic")
+    b.add_argument("--jobs", type=int, default=0, help="worker processes (0 = one per core, the default)")
+    b.add_argument("--transform", default="auto", choices=["auto", "none", "log", "boxcox", "yeojohnson", "johnson"])
+    b.add_argument("--chart", default="auto", choices=["auto", "individuals", "xbar_r", "xbar_s"])
+    b.add_argument("--rules", default="western_electric", choices=["western_electric", "nelson"])
+    b.add_argument("--json", action="store_true", help="print the summary rows as JSON")
     return p
+
+
+def _cmd_batch(args: argparse.Namespace) -> int:
+    from .batch import run_batch
+    from .data import export_csv, export_xlsx
+
+    if not os.path.exists(args.file):
+        raise QcnormError(f"File not found: {args.file}. Check the path and try again.")
+    if args.out and not args.out.lower().endswith((".csv", ".xlsx")):
+        raise QcnormError(f"--out must end in .csv or .xlsx. Got {args.out!r} instead.")
+    res = run_batch(
+        args.file, specs=args.specs, subgroup=args.subgroup, sheet=args.sheet, jobs=args.jobs,
+        pdf_dir=args.pdf_dir, progress=sys.stderr.isatty(), transform=args.transform,
+        chart=args.chart, rules=args.rules,
+    )
+    df = res.frame()
+    if args.out:
+        data = export_xlsx(df, sheet_name="summary") if args.out.lower().endswith(".xlsx") else export_csv(df)
+        try:
+            with open(args.out, "wb") as fh:
+                fh.write(data)
+        except OSError as exc:
+            raise QcnormError(f"Cannot write {args.out}: {exc.strerror}. Choose another folder or file name.") from None
+    if args.json:
+        sys.stdout.write(json.dumps([r.to_dict() for r in res.rows], indent=2, allow_nan=False) + "\n")
+        return EXIT_OK
+    cols = ["rank", "characteristic", "n", "transform", "in_control", "cpk", "cpk_lower", "ppk",
+            "ppk_lower", "ppm_overall", "verdict"]
+    shown = df[cols].copy()
+    for c in ("cpk", "cpk_lower", "ppk", "ppk_lower"):
+        shown[c] = shown[c].map(lambda v: "—" if v is None or v != v else f"{v:.2f}")
+    shown["ppm_overall"] = shown["ppm_overall"].map(lambda v: "—" if v is None or v != v else f"{v:,.0f}")
+    sys.stdout.write(shown.to_string(index=False) + "\n")
+    for r in res.rows:
+        if r.error:
+            sys.stdout.write(f"! {r.characteristic}: {r.error}\n")
+    sys.stdout.write(
+        f"{len(res.rows)} characteristic(s) in {res.seconds:.1f} s with {res.jobs} worker(s); "
+        f"{res.n_failed} could not be analysed. Ranked worst first by the lower confidence bound of "
+        "min(Cpk, Ppk).\n"
+    )
+    if args.out:
+        sys.stdout.write(f"Summary written to {args.out}\n")
+    sys.stdout.write(CAUTION + "\n")
+    return EXIT_OK
 
 
 def _read(args: argparse.Namespace):
@@ -168,7 +226,7 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-COMMANDS = {"analyze": _cmd_analyze}
+COMMANDS = {"analyze": _cmd_analyze, "batch": _cmd_batch}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -88,6 +88,7 @@ neutralization in :func:`export_csv` / :func:`export_xlsx` follows it.
 from __future__ import annotations
 
 import csv
+import dataclasses
 import datetime as _dt
 import io
 import math
@@ -106,10 +107,12 @@ import pandas as pd
 
 from ._results import Result
 from ._validation import check_choice
-from .errors import ConfigError, ReadError
+from .errors import ConfigError, QcnormError, ReadError
 
 __all__ = [
     "read_measurements",
+    "read_all",
+    "split_units",
     "list_characteristics",
     "read_table",
     "export_csv",
@@ -426,6 +429,11 @@ def _looks_like_unit(text: str) -> bool:
     if t.casefold() in _UNIT_TOKENS:
         return True
     return 0 < len(t) <= 8 and " " not in t and (len(t) <= 3 or not t.isalpha())
+
+
+def split_units(header: str) -> tuple[str, str | None]:
+    """Split a header such as "Ra [µm]" or "Diameter (mm)" into ("Ra", "µm")."""
+    return _split_units(header)
 
 
 def _column_key(name: str) -> str:
@@ -1526,6 +1534,7 @@ def read_measurements(
     include_censored: bool = False,
     max_bytes: int = 100_000_000,
     max_rows: int = 2_000_000,
+    _parsed: tuple[Any, Any] | None = None,
 ) -> Measurements:
     """Read one characteristic's measurements from a file, bytes, pasted text or a DataFrame.
 
@@ -1581,8 +1590,11 @@ def read_measurements(
                           f"Got {include_censored!r} instead.")
     if characteristic is not None and not isinstance(characteristic, str):
         characteristic = _cell_text(characteristic)
-    table = _table_from(source, sheet, decimal, max_bytes, max_rows)
-    layout = _detect_layout(table)
+    if _parsed is not None:  # read_all(): the table was parsed once for every characteristic
+        table, layout = _parsed
+    else:
+        table = _table_from(source, sheet, decimal, max_bytes, max_rows)
+        layout = _detect_layout(table)
     notes = list(table.notes)
     warns = list(table.warnings)
 
@@ -1816,6 +1828,58 @@ def _labels_listing(counts: Counter, limit: int = 20) -> str:
     items = [(k, v) for k, v in counts.items() if k]
     shown = ", ".join(f"{k} ({v} rows)" for k, v in items[:limit])
     return shown + (f" … ({len(items)} in all)" if len(items) > limit else "")
+
+
+def read_all(
+    source: Any,
+    *,
+    subgroup: str | int | None = None,
+    order: str | int | None = None,
+    sheet: str | int | None = None,
+    decimal: str | None = None,
+    include_censored: bool = False,
+    max_bytes: int = 100_000_000,
+    max_rows: int = 2_000_000,
+) -> dict[str, "Measurements | QcnormError"]:
+    """Read every characteristic of a wide or long file, parsing the file once.
+
+    Returns a dict {characteristic name: Measurements}, in file order. A
+    characteristic that cannot be read maps to the :class:`QcnormError` that says
+    why, so one bad column never stops the others. A file that cannot be read at
+    all raises, as :func:`read_measurements` does.
+    """
+    if decimal is not None:
+        check_choice(decimal, (".", ","), "decimal", "read_all")
+    _check_limits(max_bytes, max_rows, "read_all")
+    table = _table_from(source, sheet, decimal, max_bytes, max_rows)
+    layout = _detect_layout(table)
+    common = dict(subgroup=subgroup, order=order, sheet=sheet, decimal=decimal,
+                  include_censored=include_censored, max_bytes=max_bytes, max_rows=max_rows)
+    out: dict[str, Measurements | QcnormError] = {}
+    if layout.kind == "long":
+        groups: dict[str, list[tuple[int, list[Any]]]] = {}
+        for r, cells in table.body:
+            lab = _cell_text(table.cell(cells, layout.char_col)).strip()
+            if lab:
+                groups.setdefault(lab, []).append((r, cells))
+        for lab, rows in groups.items():
+            sub = dataclasses.replace(table, body=rows, notes=list(table.notes), warnings=list(table.warnings))
+            try:
+                out[lab] = read_measurements(None, characteristic=lab, _parsed=(sub, layout), **common)
+            except QcnormError as exc:
+                out[lab] = exc
+        return out
+    if not layout.measurement_cols:
+        raise ReadError(
+            f"No numeric values found in {table.where()}: no column holds numbers "
+            f"(columns: {table.columns_listing()}). Check that the right file or sheet was chosen."
+        )
+    for j in layout.measurement_cols:
+        try:
+            out[table.names[j]] = read_measurements(None, column=j, _parsed=(table, layout), **common)
+        except QcnormError as exc:
+            out[table.names[j]] = exc
+    return out
 
 
 def list_characteristics(source: Any, *, sheet: str | int | None = None,

@@ -524,17 +524,24 @@ def _interval(prof, lam: float, lmax: float, xtol: float, start: float | None = 
         step = start if start else 0.5
         inner = lam
         outer = lam + sign * step
-        while True:
-            if sign * (outer - bound) >= 0:
+        for _ in range(64):  # doubling steps; bounded so non-finite profiles cannot loop
+            at_bound = sign * (outer - bound) >= 0
+            if at_bound:
                 outer = bound
-                if f(outer) >= 0:
-                    ends.append(bound)
-                    break
-            if f(outer) < 0:
+            fo = f(outer)
+            if not math.isfinite(fo):  # the profile cannot be evaluated here: stop at the last good point
+                ends.append(inner if inner != lam else outer)
+                break
+            if at_bound and fo >= 0:
+                ends.append(bound)
+                break
+            if fo < 0:
                 ends.append(optimize.brentq(f, min(inner, outer), max(inner, outer), xtol=xtol))
                 break
             inner, step = outer, step * 2.0
             outer = lam + sign * step
+        else:
+            ends.append(bound)
     return ends[0], ends[1]
 
 

@@ -1,0 +1,146 @@
+"""analyze(): the whole job for one characteristic, checked against outside references."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy import stats
+
+from qcnorm import Analysis, Baseline, QcnormError, analyze
+
+
+def test_identity_route_matches_nist_capability_example():
+    """NIST e-Handbook 6.1.6 (from memory): USL 20, LSL 8, mean 16, s 2 -> Cpk 0.667.
+    A sample with exactly mean 16 and SD 2 gives Ppk = (20 - 16) / (3 * 2)."""
+    z = stats.norm.ppf((np.arange(1, 201) - 0.5) / 200)
+    x = 16 + 2 * (z - z.mean()) / z.std(ddof=1)
+    a = analyze(x, lsl=8, usl=20, transform="none", chart="individuals")
+    assert a.capability.ppk == pytest.approx(0.667, abs=1e-3)
+    assert a.capability.pp == pytest.approx(1.00, abs=1e-3)
+
+
+def test_log_route_limits_are_exp_of_transformed_limits():
+    """Back-transformed limits equal exp() of the limits of ln x (definition of the
+    log transform); the centre is the geometric mean (scipy.stats.gmean)."""
+    x = np.random.default_rng(1).lognormal(0.2, 0.5, 120)
+    a = analyze(x, transform="log", chart="individuals")
+    d = a.to_dict()["control"]
+    assert d["units"]["center"] == pytest.approx(stats.gmean(x), rel=1e-12)
+    assert d["units"]["ucl"] == pytest.approx(math.exp(d["transformed"]["ucl"]), rel=1e-12)
+    assert d["units"]["lcl"] == pytest.approx(math.exp(d["transformed"]["lcl"]), rel=1e-12)
+    # asymmetric in units
+    assert d["units"]["ucl"] - d["units"]["center"] > d["units"]["center"] - d["units"]["lcl"]
+
+
+def test_lognormal_expected_ppm_matches_scipy_lognorm():
+    """Under the log transform, overall ppm above USL equals the lognormal tail
+    (scipy.stats.lognorm.sf with the sample's ln-mean and ln-SD, second opinion)."""
+    x = np.random.default_rng(2).lognormal(0.0, 0.4, 400)
+    usl = 3.0
+    a = analyze(x, usl=usl, transform="log")
+    ln = np.log(x)
+    ref = stats.lognorm.sf(usl, s=ln.std(ddof=1), scale=math.exp(ln.mean())) * 1e6
+    assert a.capability.ppm_overall == pytest.approx(ref, rel=1e-6)
+
+
+def test_auto_prefers_log_for_lognormal_and_none_for_normal():
+    rng = np.random.default_rng(4)
+    assert analyze(rng.lognormal(0, 0.5, 400)).transform.name == "log"
+    assert analyze(rng.normal(10, 1, 400)).transform.name == "none"
+
+
+def test_phase_two_reproduces_phase_one_limits_on_same_data():
+    x = np.random.default_rng(6).gamma(3.0, 1.0, 250)
+    a1 = analyze(x, usl=15)
+    base = Baseline.from_dict(json.loads(json.dumps(a1.to_baseline().to_dict())))
+    a2 = analyze(x, usl=15, baseline=base)
+    assert a2.phase == "II" and "Phase II" in a2.transform_reason
+    assert a2.transform.name == a1.transform.name
+    np.testing.assert_allclose(a2.chart.ucl, a1.chart.ucl, rtol=1e-12)
+    np.testing.assert_allclose(a2.chart.lcl, a1.chart.lcl, rtol=1e-12)
+
+
+def test_phase_two_flags_a_shifted_process():
+    rng = np.random.default_rng(7)
+    base = analyze(rng.lognormal(0, 0.3, 200)).to_baseline()
+    shifted = analyze(rng.lognormal(0.6, 0.3, 50), baseline=base)
+    assert not shifted.in_control
+
+
+def test_fitted_bound_never_hides_a_spec_limit():
+    """A Johnson S_B upper bound fitted to 30 values must not turn USL into 'cannot fail'
+    (safety: a fitted bound is not a physical limit)."""
+    import csv
+
+    from conftest import ROOT
+
+    with open(ROOT / "demo_data" / "line3_spool_last_shift.csv", encoding="utf-8") as fh:
+        x = np.array([float(r["Ra [µm]"]) for r in csv.DictReader(fh)])
+    a = analyze(x, usl=1.6)
+    assert a.capability.upper_assessed
+    assert a.capability.ppk is not None and a.transform.domain.contains(np.array([1.6]))[0]
+
+
+def test_exclusions_are_kept_with_reasons():
+    x = np.random.default_rng(8).lognormal(0, 0.3, 60)
+    x[10] = 40.0
+    a = analyze(x, chart="individuals", exclude={10: "gauge dropped"})
+    assert {"row": 11, "point": 10, "reason": "gauge dropped"} in [dict(e) for e in a.excluded]
+    b = analyze(x, chart="individuals")
+    assert a.chart.sigma_within < b.chart.sigma_within
+
+
+def test_to_dict_is_strict_json():
+    a = analyze(np.random.default_rng(9).weibull(1.5, 300) + 0.1, lsl=0.0, usl=4.0, target=1.0)
+    json.dumps(a.to_dict(), allow_nan=False)
+
+
+def test_unstable_process_warns_capability_not_meaningful():
+    x = np.r_[np.random.default_rng(10).normal(10, 1, 60), np.random.default_rng(11).normal(16, 1, 20)]
+    a = analyze(x, lsl=4, usl=22, transform="none")
+    assert not a.in_control
+    assert any("not meaningful" in w for w in a.warnings)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.one_of(st.floats(allow_nan=True, allow_infinity=True),
+                          st.sampled_from([0.0, 1e-300, 1e300, -1e300, 5.0])), min_size=0, max_size=40))
+def test_arbitrary_floats_give_analysis_or_qcnorm_error(values):
+    try:
+        res = analyze(values)
+    except QcnormError:
+        return
+    assert isinstance(res, Analysis)
+    json.dumps(res.to_dict(), allow_nan=False)
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.integers(min_value=0, max_value=12), st.sampled_from(["constant", "two", "tiny", "huge", "mixed"]))
+def test_degenerate_shapes(n, kind):
+    rng = np.random.default_rng(n)
+    x = {
+        "constant": np.full(n, 3.0),
+        "two": np.resize([1.0, 2.0], n),
+        "tiny": rng.lognormal(0, 1, n) * 1e-300,
+        "huge": rng.lognormal(0, 1, n) * 1e300,
+        "mixed": rng.normal(0, 1, n),
+    }[kind]
+    try:
+        res = analyze(x, usl=1.0)
+    except QcnormError as exc:
+        assert str(exc)
+        return
+    json.dumps(res.to_dict(), allow_nan=False)
+
+
+def test_large_skewed_sample_stays_finite():
+    """n = 10^5 lognormal: statsmodels' normal_ad overflows to inf on such data
+    (REFERENCES.md); our AD and p-values stay finite numbers."""
+    x = np.random.default_rng(12).lognormal(0, 1, 100_000)
+    d = analyze(x, usl=50).to_dict()
+    assert math.isfinite(d["normality"]["raw"]["ad_statistic"])
