@@ -27,6 +27,7 @@ import plotly.graph_objects as go
 __all__ = [
     "PALETTE", "Bins", "display_name", "histogram_bins", "histogram_figure", "probability_figure",
     "control_figure", "dispersion_figure", "capability_figure", "ranking_figure",
+    "ppk_overview_figure",
 ]
 
 PALETTE = {
@@ -459,4 +460,89 @@ def ranking_figure(choice: Any, *, height: int = 300) -> go.Figure:
     fig.update_yaxes(autorange="reversed")
     _layout(fig, "Candidates by ΔAIC (0 = best fit to the original data)", "ΔAIC", "", height=height)
     fig.update_layout(showlegend=False)
+    return fig
+
+
+# --------------------------------------------------------------------------------------
+# many characteristics
+# --------------------------------------------------------------------------------------
+
+_VERDICT_STYLE = {  # verdict -> (legend label, colour)
+    "fails": ("does not meet", PALETTE["signal"]),
+    "marginal": ("meets on the estimate only", PALETTE["control"]),
+    "meets": ("meets", PALETTE["teal"]),
+}
+
+
+def ppk_overview_figure(rows: Any, *, height: int | None = None) -> go.Figure:
+    """Ppk of every characteristic, one row each, in the order given (worst first on top).
+
+    ``rows`` are :class:`qcnorm.batch.BatchRow` objects. Each row with a Ppk gets a
+    marker at Ppk (filled when the process was in control, hollow when it was not —
+    capability of an unstable process is not meaningful) and a line from its one-sided
+    lower confidence bound (``ppk_lower``) to Ppk; the colour is the row's verdict. The
+    required index of each row is a grey tick (one dashed line when all rows share it).
+    Rows without a Ppk (not analysed, or no spec limits) keep their place on the axis and
+    say why in a note at the left. Nothing is computed here: every x is a field of a row.
+    """
+    rows = list(rows)
+    names = [str(r.characteristic) for r in rows]
+    fig = go.Figure()
+    # an invisible anchor at each row's required index keeps every characteristic on the
+    # axis, those without a Ppk too (the required index is inside the x range anyway)
+    fig.add_trace(go.Scatter(
+        x=[r.required_index for r in rows], y=names, mode="markers", marker=dict(opacity=0),
+        showlegend=False, hoverinfo="skip", name="rows",
+    ))
+    for verdict, (label, color) in _VERDICT_STYLE.items():
+        mine = [r for r in rows if r.verdict == verdict and _finite(r.ppk)]
+        if not mine:
+            continue
+        seg_x: list[Any] = []
+        seg_y: list[Any] = []
+        for r in mine:
+            if _finite(r.ppk_lower):
+                seg_x += [r.ppk_lower, r.ppk, None]
+                seg_y += [str(r.characteristic), str(r.characteristic), None]
+        if seg_x:
+            fig.add_trace(go.Scatter(
+                x=seg_x, y=seg_y, mode="lines", name=f"{label}: lower 95 % bound", legendgroup=verdict,
+                showlegend=False, line=dict(color=color, width=3), hoverinfo="skip",
+            ))
+        fig.add_trace(go.Scatter(
+            x=[r.ppk for r in mine], y=[str(r.characteristic) for r in mine], mode="markers",
+            name=label, legendgroup=verdict,
+            marker=dict(color=color, size=11, line=dict(color=color, width=2),
+                        symbol=["circle" if r.in_control else "circle-open" for r in mine]),
+            customdata=[[r.ppk_lower, r.required_index, "in control" if r.in_control else "NOT in control"]
+                        for r in mine],
+            hovertemplate=("%{y}: Ppk %{x:.3f}, lower bound %{customdata[0]:.3f}, "
+                           "required %{customdata[1]:.2f} (%{customdata[2]})<extra></extra>"),
+        ))
+    reqs = {float(r.required_index) for r in rows if _finite(r.required_index)}
+    if len(reqs) == 1:
+        req = reqs.pop()
+        fig.add_vline(x=req, line=dict(color=PALETTE["center"], width=1.5, dash="dash"),
+                      annotation_text=f"required {req:.2f}", annotation_position="top",
+                      annotation_font=dict(size=11, color=PALETTE["center"]))
+    elif reqs:
+        fig.add_trace(go.Scatter(
+            x=[r.required_index for r in rows], y=names, mode="markers", name="required index",
+            marker=dict(symbol="line-ns-open", size=16, color=PALETTE["center"], line=dict(width=2)),
+            hovertemplate="%{y}: required %{x:.2f}<extra></extra>",
+        ))
+    for r in rows:
+        if _finite(r.ppk):
+            continue
+        why = "not analysed — see the table" if r.error else "no Ppk (no spec limits)"
+        fig.add_annotation(x=0.0, xref="paper", xanchor="left", y=str(r.characteristic), yref="y",
+                           text=why, showarrow=False, font=dict(size=11, color=PALETTE["excluded"]))
+    if height is None:
+        height = 130 + 30 * max(len(rows), 1)
+    _layout(fig, "Ppk per characteristic (line: from the 95 % lower confidence bound; hollow: not in control)",
+            "Ppk", "", height=height)
+    fig.update_yaxes(type="category", categoryorder="array", categoryarray=names, autorange="reversed",
+                     range=None)
+    fig.update_layout(margin=dict(l=8, r=20, t=56, b=90))
+    fig.update_yaxes(automargin=True)
     return fig

@@ -31,6 +31,7 @@ class PageSpec:
 
 PAGES: tuple[PageSpec, ...] = (
     PageSpec("load", "1 · Load", "load_page", "Measurements, characteristic and spec limits", needs_data=False),
+    PageSpec("overview", "All characteristics", "overview_page", "Every characteristic of the file, ranked worst first"),
     PageSpec("shape", "2 · Shape", "shape_page", "Distribution, transform and normality"),
     PageSpec("stability", "3 · Stability", "stability_page", "Control chart, signals and assignable causes"),
     PageSpec("capability", "4 · Capability", "capability_page", "Indices, ppm and what they mean"),
