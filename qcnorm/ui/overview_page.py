@@ -274,14 +274,13 @@ def open_characteristic(name: str, rows: tuple[BatchRow, ...]) -> None:
 
 
 def _open_section(res: BatchResult) -> None:
-    st.subheader("Open one characteristic")
     badge = {r.characteristic: ("not analysed" if r.error else VERDICT_BADGES.get(r.verdict, r.verdict))
              for r in res.rows}
     names = [r.characteristic for r in res.rows]
     if st.session_state.get("qc_ov_pick") not in names:
         st.session_state["qc_ov_pick"] = names[0]
     c1, c2 = st.columns([2, 1], vertical_alignment="bottom")
-    c1.selectbox("Characteristic (worst first)", names, key="qc_ov_pick",
+    c1.selectbox("Open one characteristic in the single-characteristic steps (worst first)", names, key="qc_ov_pick",
                  format_func=lambda n: f"{names.index(n) + 1} · {n} — {badge[n]}")
     c2.button("Open in Shape → Stability → Capability", key="qc_ov_open", type="primary",
               on_click=lambda: open_characteristic(st.session_state["qc_ov_pick"], res.rows))
@@ -323,12 +322,20 @@ def render() -> None:
         st.warning("Capability of a characteristic that is not in control is not meaningful: its "
                    "Cpk/Ppk describe the past mix of process states, not what the process will do. "
                    "Open it and look at its control chart first.")
+    # the opener sits above the table: the next page opens at the scroll position of this
+    # one, so a control far down would land the technician in the middle of the Shape page
+    _open_section(res)
     st.dataframe(summary_table(res.rows), hide_index=True, width="stretch",
                  height=min(38 + 35 * len(res.rows), 560),
                  column_config={"what to know": st.column_config.TextColumn(width="large")})
+    failed = [r for r in res.rows if r.error]
+    if failed:  # the reason is in the row too, but far to the right of a wide table
+        st.error("Not analysed (the others are unaffected):\n\n" + "\n".join(
+            f"- **{r.characteristic}**: {r.error}" for r in failed[:20])
+            + (f"\n- … and {len(failed) - 20} more (see the table)" if len(failed) > 20 else ""),
+            icon=":material/front_hand:")
     shown = res.rows[:CHART_ROWS]
     if len(res.rows) > len(shown):
         st.caption(f"The chart shows the {len(shown)} worst of {len(res.rows)} characteristics.")
     st.plotly_chart(plots.ppk_overview_figure(shown), width="stretch", key="qc_ov_chart",
                     config={"displaylogo": False})
-    _open_section(res)
