@@ -16,7 +16,7 @@ $(STAMP): $(BIN)/python requirements.txt requirements-dev.txt pyproject.toml
 	touch $(STAMP)
 
 run: $(STAMP)
-	$(BIN)/python -m streamlit run app.py --server.headless true --browser.gatherUsageStats false
+	OPENBLAS_NUM_THREADS=1 $(BIN)/python -m streamlit run app.py --server.headless true --browser.gatherUsageStats false
 
 test: $(STAMP)
 	$(BIN)/python -m pytest $(PYTEST_ARGS)

@@ -29,7 +29,7 @@ __all__ = ["SpecRow", "BatchRow", "BatchResult", "read_specs", "run_batch", "SUM
 SUMMARY_COLUMNS = (
     "rank", "characteristic", "units", "n", "lsl", "usl", "target", "required_index", "transform",
     "ad_p_raw", "ad_p_transformed", "in_control", "violations", "cpk", "cpk_lower", "ppk",
-    "ppk_lower", "ppm_overall", "ppm_observed", "percentile_ppk", "verdict", "warnings", "error",
+    "ppk_lower", "ppk_ci_low", "ppk_ci_high", "ppm_overall", "ppm_observed", "percentile_ppk", "verdict", "warnings", "error",
 )
 
 
@@ -65,6 +65,8 @@ class BatchRow(Result):
     cpk_lower: float | None = None
     ppk: float | None = None
     ppk_lower: float | None = None
+    ppk_ci_low: float | None = None
+    ppk_ci_high: float | None = None
     ppm_overall: float | None = None
     ppm_observed: float | None = None
     percentile_ppk: float | None = None
@@ -209,6 +211,8 @@ def _analyse_one(task: tuple) -> BatchRow:
         cpk_lower=None if cap is None else cap.cpk_lower_bound,
         ppk=None if cap is None else cap.ppk,
         ppk_lower=None if cap is None else cap.ppk_lower_bound,
+        ppk_ci_low=None if cap is None or cap.ppk_ci is None else cap.ppk_ci.low,
+        ppk_ci_high=None if cap is None or cap.ppk_ci is None else cap.ppk_ci.high,
         ppm_overall=None if cap is None else cap.ppm_overall,
         ppm_observed=None if cap is None else cap.ppm_observed,
         percentile_ppk=None if a.percentile is None else a.percentile.ppk,

@@ -19,10 +19,7 @@ from .errors import QcnormError
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
 
-CAUTION = (
-    "Decision support only: release follows the site's quality system, customer requirements "
-    "and applicable regulations, and is made by an authorised person."
-)
+from .caution import CAUTION  # noqa: E402  (re-exported for callers)
 
 
 class _Parser(argparse.ArgumentParser):

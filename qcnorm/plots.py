@@ -498,6 +498,18 @@ def ppk_overview_figure(rows: Any, *, height: int | None = None) -> go.Figure:
         mine = [r for r in rows if r.verdict == verdict and _finite(r.ppk)]
         if not mine:
             continue
+        ci_x: list[Any] = []
+        ci_y: list[Any] = []
+        for r in mine:
+            lo, hi = getattr(r, "ppk_ci_low", None), getattr(r, "ppk_ci_high", None)
+            if _finite(lo) and _finite(hi):
+                ci_x += [lo, hi, None]
+                ci_y += [str(r.characteristic), str(r.characteristic), None]
+        if ci_x:
+            fig.add_trace(go.Scatter(
+                x=ci_x, y=ci_y, mode="lines", name=f"{label}: two-sided 95 % interval", legendgroup=verdict,
+                showlegend=False, line=dict(color=color, width=1), opacity=0.6, hoverinfo="skip",
+            ))
         seg_x: list[Any] = []
         seg_y: list[Any] = []
         for r in mine:
@@ -539,7 +551,7 @@ def ppk_overview_figure(rows: Any, *, height: int | None = None) -> go.Figure:
                            text=why, showarrow=False, font=dict(size=11, color=PALETTE["excluded"]))
     if height is None:
         height = 130 + 30 * max(len(rows), 1)
-    _layout(fig, "Ppk per characteristic (line: from the 95 % lower confidence bound; hollow: not in control)",
+    _layout(fig, "Ppk per characteristic (thin: two-sided 95 % interval; thick: from the one-sided lower bound; hollow: not in control)",
             "Ppk", "", height=height)
     fig.update_yaxes(type="category", categoryorder="array", categoryarray=names, autorange="reversed",
                      range=None)

@@ -39,6 +39,7 @@ from typing import Any
 import numpy as np
 
 from ._version import __version__
+from .caution import CAUTION
 from .checklist import ChecklistItem, analysis_dict, checklist_outcome, review_checklist
 from .errors import ConfigError, QcnormError
 
@@ -72,10 +73,7 @@ SECTION_TITLES: dict[str, str] = {
 }
 
 #: The caution printed on the first page and in the verdict section.
-CAUTION_TEXT = (
-    "These figures are decision support. Release of a lot follows the site's quality system, "
-    "the customer's requirements and applicable regulations, and is decided by an authorised person."
-)
+CAUTION_TEXT = CAUTION
 
 #: How the chart types are named in the report.
 CHART_NAMES = {"individuals": "individuals and moving range", "xbar_r": "X̄ and R", "xbar_s": "X̄ and S"}

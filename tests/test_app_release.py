@@ -86,7 +86,7 @@ def test_every_release_page_shows_the_caution_and_the_database(db):
     for page in ("release", "review", "history"):
         _go(at, page)
         caps = _texts(at.caption)
-        assert "Decision support" in caps and "authorised person" in caps, page
+        assert "decision support" in caps and "authorised person" in caps, page
         assert str(db) in caps, page  # the database path is on the page (issue 6)
 
 

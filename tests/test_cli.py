@@ -12,6 +12,7 @@ import pytest
 from scipy import stats
 
 from conftest import ROOT
+from qcnorm.caution import CAUTION
 from qcnorm.cli import main
 
 MESSY = ROOT / "tests" / "data" / "messy"
@@ -87,7 +88,7 @@ def test_nist_individuals_example_through_cli(tmp_path):
 def test_text_summary_has_caution_and_reason():
     p = run_cli("analyze", str(DEMO / "line3_spool_last_shift.csv"), "--column", "Ra", "--usl", "1.6")
     assert p.returncode == 0, p.stderr
-    assert "Decision support only" in p.stdout
+    assert CAUTION in p.stdout
     assert "why:" in p.stdout and "Capability:" in p.stdout
 
 
@@ -169,7 +170,7 @@ def test_batch_command_writes_ranked_summary(tmp_path):
     p = run_cli("batch", str(DEMO / "line3_spool_wide.csv"), "--specs", str(DEMO / "line3_spool_specs.csv"),
                 "--subgroup", "Subgroup", "--out", str(out), "--jobs", "2")
     assert p.returncode == 0, p.stderr
-    assert "Decision support only" in p.stdout
+    assert CAUTION in p.stdout
     import pandas as pd
 
     df = pd.read_csv(out, encoding="utf-8-sig")

@@ -15,7 +15,7 @@ from typing import Any
 
 import streamlit as st
 
-from ..cli import CAUTION
+from ..caution import CAUTION
 from ..errors import QcnormError
 from . import state
 
@@ -32,7 +32,7 @@ APOLOGY = (
 
 
 def caution() -> None:
-    """The release caution, shown on every page (words from qcnorm.cli.CAUTION)."""
+    """The release caution, shown on every page (words from qcnorm.caution)."""
     st.caption(f"⚠ {CAUTION}")
 
 
