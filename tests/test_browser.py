@@ -8,17 +8,11 @@ CI, where QCNORM_REQUIRE_BROWSER is set). Never runs ``playwright install``.
 
 from __future__ import annotations
 
-import os
-import signal
-import socket
-import subprocess
-import sys
-import time
-import urllib.request
 from pathlib import Path
 
 import pytest
 
+from browser_util import streamlit_server
 from conftest import ROOT, skip_or_fail
 
 pytestmark = pytest.mark.browser
@@ -29,48 +23,14 @@ CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networki
 DEMO = ROOT / "demo_data" / "line3_spool_last_shift.csv"
 
 
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
 @pytest.fixture(scope="module")
-def server():
+def server(tmp_path_factory):
     """A streamlit server for this module; always stopped (its whole process group)."""
     if not Path(CHROMIUM).exists():
         skip_or_fail("Chromium not installed at /usr/bin/chromium", "QCNORM_REQUIRE_BROWSER")
-    port = _free_port()
-    cmd = [sys.executable, "-m", "streamlit", "run", str(ROOT / "app.py"), "--server.headless", "true",
-           "--server.port", str(port), "--server.address", "127.0.0.1",
-           "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none"]
-    proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.STDOUT,
-                            start_new_session=True)
-    url = f"http://127.0.0.1:{port}"
-    try:
-        deadline = time.monotonic() + 60
-        while True:
-            try:
-                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
-                    if r.status == 200:
-                        break
-            except OSError:
-                pass
-            if proc.poll() is not None or time.monotonic() > deadline:
-                out = proc.stdout.read().decode(errors="replace") if proc.stdout else ""
-                pytest.fail(f"streamlit did not start on {url}:\n{out[-2000:]}")
-            time.sleep(0.3)
+    log = tmp_path_factory.mktemp("browser") / "server.log"
+    with streamlit_server(log) as url:
         yield url
-    finally:
-        try:
-            os.killpg(proc.pid, signal.SIGTERM)
-            proc.wait(timeout=10)
-        except (ProcessLookupError, subprocess.TimeoutExpired):
-            try:
-                os.killpg(proc.pid, signal.SIGKILL)
-            except ProcessLookupError:
-                pass
-            proc.wait(timeout=10)
 
 
 @pytest.fixture(scope="module")

@@ -8,18 +8,13 @@ The browser fixture and the page helpers are the ones of tests/test_browser.py.
 
 from __future__ import annotations
 
-import os
-import signal
-import subprocess
-import sys
-import time
-import urllib.request
 from pathlib import Path
 
 import pytest
 
-from conftest import ROOT, skip_or_fail
-from test_browser import CHROMIUM, _charts, _free_port, _go, _no_traceback, _shot, _wait_idle, browser  # noqa: F401
+from browser_util import streamlit_server
+from conftest import skip_or_fail
+from test_browser import CHROMIUM, _charts, _go, _no_traceback, _shot, _wait_idle, browser  # noqa: F401
 
 from qcnorm.store import HistoryStore
 
@@ -33,38 +28,8 @@ def release_server(tmp_path_factory):
         skip_or_fail("Chromium not installed at /usr/bin/chromium", "QCNORM_REQUIRE_BROWSER")
     tmp = tmp_path_factory.mktemp("release_browser")
     db, log = tmp / "history.sqlite3", tmp / "server.log"
-    port = _free_port()
-    cmd = [sys.executable, "-m", "streamlit", "run", str(ROOT / "app.py"), "--server.headless", "true",
-           "--server.port", str(port), "--server.address", "127.0.0.1",
-           "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none"]
-    env = {**os.environ, "QCNORM_DB": str(db), "PYTHONUNBUFFERED": "1"}
-    with open(log, "wb") as out:
-        proc = subprocess.Popen(cmd, cwd=ROOT, stdout=out, stderr=subprocess.STDOUT, env=env,
-                                start_new_session=True)
-    url = f"http://127.0.0.1:{port}"
-    try:
-        deadline = time.monotonic() + 60
-        while True:
-            try:
-                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
-                    if r.status == 200:
-                        break
-            except OSError:
-                pass
-            if proc.poll() is not None or time.monotonic() > deadline:
-                pytest.fail(f"streamlit did not start on {url}:\n{log.read_text(errors='replace')[-2000:]}")
-            time.sleep(0.3)
+    with streamlit_server(log, env={"QCNORM_DB": str(db)}) as url:
         yield url, db, log
-    finally:
-        try:
-            os.killpg(proc.pid, signal.SIGTERM)
-            proc.wait(timeout=10)
-        except (ProcessLookupError, subprocess.TimeoutExpired):
-            try:
-                os.killpg(proc.pid, signal.SIGKILL)
-            except ProcessLookupError:
-                pass
-            proc.wait(timeout=10)
 
 
 def _fill(page, label: str, text: str) -> None:
