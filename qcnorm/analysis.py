@@ -11,10 +11,8 @@ none of them computes a statistic of its own.
 
 from __future__ import annotations
 
-import dataclasses
-import math
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any, ClassVar
 
 import numpy as np

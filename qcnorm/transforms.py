@@ -35,7 +35,7 @@ boxcox 5, yeojohnson 5, johnson 20.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any, ClassVar
 
