@@ -13,6 +13,14 @@ st.set_page_config(page_title="qcnorm workbench", page_icon="◈", layout="wide"
 state.init()
 state.keep()
 common.style()
+# Open the history database once at start (cached) so its path is printed to the console
+# (issue: "printed at start"); a failure here is shown on the pages that need the store.
+try:
+    from qcnorm.ui import release_page
+
+    release_page.store()
+except Exception:  # noqa: BLE001 - the release pages show the error with its next step
+    pass
 
 with st.sidebar:
     st.markdown("### ◈ qcnorm")

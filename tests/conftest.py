@@ -30,6 +30,20 @@ def skip_or_fail(reason: str, env_var: str) -> None:
     pytest.skip(reason)
 
 
+@pytest.fixture(scope="session", autouse=True)
+def _private_history_db(tmp_path_factory):
+    """Never let a test write into the user's real history database: unless a test
+    sets QCNORM_DB itself, the whole session uses a throw-away SQLite file."""
+    if "QCNORM_DB" in os.environ:
+        yield
+        return
+    os.environ["QCNORM_DB"] = str(tmp_path_factory.mktemp("history") / "history.sqlite3")
+    try:
+        yield
+    finally:
+        os.environ.pop("QCNORM_DB", None)
+
+
 @pytest.fixture
 def rng() -> np.random.Generator:
     return np.random.default_rng(20261201)
