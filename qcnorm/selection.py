@@ -38,6 +38,10 @@ AIC_MARGIN = 2.0
 AD_ALPHA = 0.05
 #: Smallest sample choose_transform accepts (the Anderson–Darling p-value needs 8).
 MIN_N_SELECTION = 8
+# "auto" tries the Johnson system only from this many values on: its percentile fit rests
+# on the sample quantiles at Φ(±3z), i.e. on the tails, and a 4-parameter bounded fit to a
+# few dozen values invents bounds the process does not have (common practice: ≥ 100).
+JOHNSON_AUTO_MIN_N = 100
 
 _WORDS = {
     "none": "no transform",
@@ -201,7 +205,8 @@ def choose_transform(
         Measurements (at least 8 finite values, not all equal).
     candidates : "auto", a transform name, or a list of names
         "auto" tries none, log, boxcox, yeojohnson and johnson (log and Box–Cox are
-        reported as not applicable when some value is ≤ 0). A single name just fits
+        reported as not applicable when some value is ≤ 0; Johnson only from
+        ``JOHNSON_AUTO_MIN_N`` = 100 values on). A single name just fits
         that transform (its fitting error is raised). A list ranks those.
     subgroups : array_like, int or None
         Subgroup labels (one per value) or a subgroup size, for the spread–level
@@ -253,7 +258,12 @@ def choose_transform(
     # ``_ad_out`` (private, for analyze()) collects {family: (fitted transform, ADResult)}.
     xs = np.sort(arr) if _sorted is None else _sorted
     fits: list[CandidateFit] = []
+    auto = isinstance(candidates, str) and candidates == "auto"
     for fam in names:
+        if auto and fam == "johnson" and xs.size < JOHNSON_AUTO_MIN_N:
+            fits.append(_failed(fam, f"not tried automatically below {JOHNSON_AUTO_MIN_N} values (its "
+                                     "percentile fit rests on the tails); choose it explicitly to fit it"))
+            continue
         opts = {"round_lambda": round_lambda} if fam == "boxcox" else {}
         t = make_transform(fam, **opts)
         try:

@@ -132,7 +132,17 @@ def test_bad_input():
 
 def test_small_sample_reports_johnson_minimum():
     x = np.random.default_rng(9).lognormal(0.0, 0.5, 12)
-    ch = choose_transform(x)
+    ch = choose_transform(x, candidates=["none", "log", "johnson"])  # asked for explicitly
     j = _by_family(ch)["johnson"]
     assert j.error is not None and "at least 20 values" in j.error
     assert ch.name != "johnson"
+
+
+def test_auto_leaves_johnson_out_below_100_values_and_says_why():
+    """A 4-parameter percentile fit rests on the tails; 'auto' tries it only from 100
+    values on (common practice), and says so in the table."""
+    x = np.random.default_rng(9).lognormal(0.0, 0.5, 60)
+    j = _by_family(choose_transform(x))["johnson"]
+    assert j.error is not None and "100 values" in j.error
+    x = np.random.default_rng(9).lognormal(0.0, 0.5, 100)
+    assert _by_family(choose_transform(x))["johnson"].error is None
