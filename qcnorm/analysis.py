@@ -439,17 +439,27 @@ def analyze(
         norm_t = normality_report(y, _sorted=ys, _ad=ad_of.get(id(tr)))
     if norm_raw.resolution.coarse:
         warnings.append(norm_raw.resolution.message)
-    if tr.name != "none" and norm_t.ad_p_value is not None and norm_t.ad_p_value < 0.05:
-        warnings.append(
-            f"Even after the {tr.name} transform the data is not normal (Anderson–Darling p = "
-            f"{norm_t.ad_p_value:.3g}): treat limits and ppm as approximate and compare with the "
-            "percentile-method figures."
-        )
-    elif tr.name == "none" and norm_raw.ad_p_value is not None and norm_raw.ad_p_value < 0.05:
-        warnings.append(
-            f"The data is not normal (Anderson–Darling p = {norm_raw.ad_p_value:.3g}) and no transform "
-            "was applied: limits and ppm assume normality; consider transform 'auto'."
-        )
+    p_after = norm_t.ad_p_value
+    if p_after is not None and p_after < 0.05:
+        cause = (" The coarse resolution noted above is a likely cause: ties alone make the test reject."
+                 if norm_raw.resolution.coarse else "")
+        if tr.name != "none":
+            warnings.append(
+                f"Even after the {tr.name} transform the data do not look normal (Anderson–Darling p = "
+                f"{p_after:.3g}): treat limits and ppm as approximate and compare with the "
+                f"percentile-method figures.{cause}"
+            )
+        elif transform == "auto" and baseline is None:
+            warnings.append(
+                f"The data do not look normal (Anderson–Darling p = {p_after:.3g}), and no transform "
+                "improved the fit enough to be chosen: treat limits and ppm as approximate and compare "
+                f"with the percentile-method figures.{cause}"
+            )
+        else:
+            warnings.append(
+                f"The data do not look normal (Anderson–Darling p = {p_after:.3g}) and no transform was "
+                f"applied: limits and ppm assume normality; consider transform 'auto'.{cause}"
+            )
 
     # 3. Control chart on the transformed scale, limits back in units.
     ch = control_chart(

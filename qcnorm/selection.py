@@ -312,7 +312,8 @@ def _with_delta(c: CandidateFit, d: float) -> CandidateFit:
 
 
 def _fmt_p(p: float) -> str:
-    return "< 0.001" if p < 0.001 else f"{p:.3f}" if p < 0.1 else f"{p:.2f}"
+    """'p < 0.001' or 'p = 0.042': the whole phrase, so it never reads 'p = < 0.001'."""
+    return "p < 0.001" if p < 0.001 else f"p = {p:.3f}" if p < 0.1 else f"p = {p:.2f}"
 
 
 def _apply_rule(ok: list[CandidateFit]) -> tuple[CandidateFit, str]:
@@ -363,7 +364,7 @@ def _apply_rule(ok: list[CandidateFit]) -> tuple[CandidateFit, str]:
             body = f"it was the only candidate that could be fitted (AIC {best.aic:.1f})"
     else:
         body = why_simpler
-    fit_words = (f"After it, Anderson–Darling p = {_fmt_p(chosen.ad_p_value)} "
+    fit_words = (f"After it, Anderson–Darling {_fmt_p(chosen.ad_p_value)} "
                  f"(A² = {chosen.ad_statistic:.3f}) and skewness {chosen.skewness_after:.2f}")
     if chosen.ad_p_value < AD_ALPHA:
         fit_words += ("; the data still do not look normal, so treat limits and capability from this "
