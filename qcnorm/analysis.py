@@ -34,6 +34,7 @@ TRANSFORM_CHOICES = ("auto", "none", "log", "boxcox", "yeojohnson", "johnson")
 CHART_CHOICES = ("auto", "individuals", "xbar_r", "xbar_s")
 RULE_CHOICES = ("western_electric", "nelson")
 MAX_MAGNITUDE = 1e50  # beyond this, fourth moments overflow double precision; no real measurement is here
+MIN_N = 8  # the Anderson–Darling p-value (D'Agostino & Stephens 1986) is given from n = 8
 MIN_SPREAD = 1e-60  # below this, fourth moments underflow double precision
 SMALL_N = 30  # below this, capability intervals are wide (common practice: ≥ 30, better ≥ 100)
 
@@ -350,8 +351,20 @@ def analyze(
         ingest_warnings = tuple(m.report.warnings)
         values = m.values
 
-    x = check_sample(values, "values", func, min_n=3)
+    x = check_sample(values, "values", func, min_n=1, allow_constant=True)
     n = x.size
+    if n < MIN_N:
+        dropped = ""
+        if ingest_excluded:
+            shown = "; ".join(f"row {e['row']}: {e['reason'].split(';')[0]}" for e in ingest_excluded[:4])
+            more = " …" if len(ingest_excluded) > 4 else ""
+            dropped = f" ({len(ingest_excluded)} row(s) were left out when reading — {shown}{more})"
+        raise DataError(
+            f"Only {n} usable value(s){dropped}: qcnorm needs at least {MIN_N} to choose a transform and "
+            "test normality (the Anderson–Darling test needs 8), and 30 or more for a capability study. "
+            "Collect more measurements, or check the column chosen."
+        )
+    x = check_sample(x, "values", func, min_n=MIN_N)
     big = np.abs(x) > MAX_MAGNITUDE
     if big.any():
         idx = np.flatnonzero(big)

@@ -223,6 +223,23 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+# The core's messages name Python keyword arguments; on the command line say the flags.
+_CLI_WORDS = (
+    ("list_characteristics() shows their counts", "'python -m qcnorm batch FILE' analyses them all"),
+    ("include_censored=True", "--include-censored"),
+    ("characteristic=", "--characteristic"),
+    ("column=", "--column"),
+    ("subgroup=", "--subgroup"),
+    ("sheet=", "--sheet"),
+)
+
+
+def _in_cli_words(message: str) -> str:
+    for py, flag in _CLI_WORDS:
+        message = message.replace(py, flag)
+    return message
+
+
 COMMANDS = {"analyze": _cmd_analyze, "batch": _cmd_batch}
 
 
@@ -235,7 +252,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return COMMANDS[args.command](args)
     except QcnormError as exc:
-        sys.stderr.write(f"qcnorm: {exc}\n")
+        sys.stderr.write(f"qcnorm: {_in_cli_words(str(exc))}\n")
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         sys.stderr.write("qcnorm: interrupted\n")

@@ -176,3 +176,15 @@ def test_batch_command_writes_ranked_summary(tmp_path):
     df = pd.read_csv(out, encoding="utf-8-sig")
     assert list(df["rank"]) == list(range(1, 7))
     assert set(df["characteristic"]) == {"Ra", "Flatness", "Residue", "Hardness", "Coating", "Bore"}
+
+
+def test_too_few_values_message_names_the_rows_left_out(capsys):
+    rc = main(["analyze", str(MESSY / "censored.csv")])
+    err = capsys.readouterr().err
+    assert rc == 2 and "Only 3 usable value(s)" in err and "row 3: censored" in err
+
+
+def test_messages_use_cli_flags_not_python_keywords(capsys):
+    rc = main(["analyze", str(MESSY / "long_format.csv")])
+    err = capsys.readouterr().err
+    assert rc == 2 and "--characteristic" in err and "characteristic=" not in err
