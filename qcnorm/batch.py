@@ -246,6 +246,8 @@ def run_batch(
     transform: str = "auto",
     chart: str = "auto",
     rules: str = "western_electric",
+    round_lambda: bool = True,
+    include_censored: bool = False,
 ) -> BatchResult:
     """Analyse every characteristic of a wide or long file.
 
@@ -264,6 +266,8 @@ def run_batch(
     pdf_dir : path, optional
         Write one PDF summary per characteristic into this folder.
     progress : callable(done, total) or True for a bar on stderr.
+    transform, chart, rules, round_lambda : as for :func:`qcnorm.analyze`.
+    include_censored : as for :func:`qcnorm.read_measurements`.
     """
     from .data import read_all, split_units
 
@@ -282,8 +286,8 @@ def run_batch(
     elif progress is False:
         progress = None
 
-    found = read_all(source, subgroup=subgroup, sheet=sheet)
-    opts = {"transform": transform, "chart": chart, "rules": rules}
+    found = read_all(source, subgroup=subgroup, sheet=sheet, include_censored=include_censored)
+    opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda}
     tasks, rows = [], []
     for header, m in found.items():
         name = split_units(header)[0] or header  # "Ra [µm]" -> "Ra": the name specs use

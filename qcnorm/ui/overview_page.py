@@ -183,7 +183,7 @@ def batch(digest: str, _data: bytes, name: str, sheet: str | None, subgroup: str
     buf = io.BytesIO(_data)
     buf.name = name
     specs = {k: SpecRow(*fields) for k, fields in specs_key}
-    transform, chart, rules = options
+    transform, chart, rules, round_lambda, include_censored = options
     bar = st.progress(0.0, text="Analysing every characteristic …")
     last = [-1]
 
@@ -194,7 +194,8 @@ def batch(digest: str, _data: bytes, name: str, sheet: str | None, subgroup: str
             bar.progress(done / max(total, 1), text=f"Analysing every characteristic … {done} of {total}")
 
     res = run_batch(buf, specs=specs, subgroup=subgroup, sheet=sheet, jobs=1, progress=tick,
-                    transform=transform, chart=chart, rules=rules)
+                    transform=transform, chart=chart, rules=rules, round_lambda=round_lambda,
+                    include_censored=include_censored)
     bar.empty()
     return res
 
@@ -202,7 +203,9 @@ def batch(digest: str, _data: bytes, name: str, sheet: str | None, subgroup: str
 def current_batch(records: list[dict[str, Any]]) -> BatchResult:
     src = state.source()
     specs = _spec_rows(records)
-    options = (state.get("qc_transform"), state.get("qc_chart"), state.get("qc_rules"))
+    # the same options the single-characteristic pages use, so their numbers agree
+    options = (state.get("qc_transform"), state.get("qc_chart"), state.get("qc_rules"),
+               bool(state.get("qc_round_lambda")), bool(state.get("qc_include_censored")))
     return batch(src.digest, src.data, src.name, state.get("qc_sheet") or None, state.get("qc_subgroup"),
                  tuple((k, tuple(getattr(v, c) for c in SPEC_FIELDS)) for k, v in sorted(specs.items())),
                  options)
