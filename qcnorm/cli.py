@@ -53,6 +53,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="use '<0.05'-style values at their limit instead of excluding them")
     a.add_argument("--json", action="store_true", help="print the analysis as JSON")
     a.add_argument("--pdf", metavar="OUT.pdf", help="also write the PDF summary")
+    a.add_argument("--paper", default="A4", choices=["A4", "Letter"], help="paper size of the PDF")
     b = sub.add_parser("batch", help="analyse every characteristic of a wide or long file")
     b.add_argument("file", help="CSV/TSV/XLSX file with one column per characteristic, or a long file")
     b.add_argument("--specs", metavar="SPECS.csv",
@@ -213,7 +214,7 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
     if args.pdf:
         from .report import write_pdf
 
-        write_pdf(res, args.pdf)
+        write_pdf(res, args.pdf, page=args.paper)
     if args.json:
         sys.stdout.write(json.dumps(d, indent=2, allow_nan=False) + "\n")
     else:
