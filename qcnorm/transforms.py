@@ -1158,7 +1158,11 @@ class Johnson(Transform):
 
     @property
     def n_model_params(self) -> int:
-        return 4
+        """SU and SB: ε, λ and the normal μ, σ (γ, η are absorbed by them) = 4.
+        SL: ln((x − ε)/λ) = ln(x − ε) − ln λ, so λ is absorbed too: ε, μ, σ = 3, the
+        same model and count as the 3-parameter lognormal (``Log(threshold="fit")``)."""
+        self._check_fitted()
+        return 3 if self.family_ == "sl" else 4
 
     def describe(self) -> str:
         self._check_fitted()

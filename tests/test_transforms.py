@@ -358,4 +358,7 @@ def test_contract_parameter_keys():
     n_params = {name: t.n_model_params for name, t, _ in ALL}
     assert n_params["none"] == 2 and n_params["log"] == 2 and n_params["log_threshold"] == 3
     assert n_params["boxcox"] == 3 and n_params["boxcox_shift_auto"] == 4
-    assert n_params["yeojohnson"] == 3 and n_params["johnson_su"] == 4
+    assert n_params["yeojohnson"] == 3 and n_params["johnson_su"] == 4 and n_params["johnson_sb"] == 4
+    # Johnson (1949): S_L is z = γ + η·ln(x − ε), three free parameters (γ, η, ε), i.e. the
+    # 3-parameter lognormal; it must count like Log(threshold="fit"), not like S_U/S_B.
+    assert n_params["johnson_sl"] == n_params["log_threshold"] == 3
