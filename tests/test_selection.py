@@ -73,6 +73,30 @@ def test_loglik_of_log_equals_scipy_lognormal():
     assert fam["boxcox"].loglik == pytest.approx(bc_ll, rel=1e-10)
 
 
+def test_loglik_of_yeojohnson_and_johnson_equal_scipy():
+    # Second opinions for the two candidates not covered above:
+    # - Yeo–Johnson: scipy.stats.yeojohnson_llf is the profile −(n/2)·ln σ̂² + (λ−1)·Σ sign(x)·ln(|x|+1)
+    #   without the normal constant −(n/2)(1 + ln 2π) (Yeo & Johnson 2000).
+    # - Johnson S_U: with μ̂, σ̂ the MLE of T(x), the original data follow
+    #   scipy.stats.johnsonsu(a=(γ − μ̂)/σ̂, b=η/σ̂, loc=ε, scale=λ) (Johnson 1949).
+    x = stats.johnsonsu(1.0, 1.5, loc=10.0, scale=3.0).rvs(size=600, random_state=np.random.default_rng(12))
+    ch = choose_transform(x, candidates=["yeojohnson", "johnson"])
+    fam = _by_family(ch)
+    n = x.size
+    yj = fam["yeojohnson"]
+    ref_yj = stats.yeojohnson_llf(yj.params["lambda"], x) - 0.5 * n * (1.0 + math.log(2.0 * math.pi))
+    assert yj.loglik == pytest.approx(ref_yj, rel=1e-10)
+    assert yj.n_params == 3 and yj.aic == pytest.approx(6.0 - 2.0 * ref_yj, rel=1e-10)
+    j = fam["johnson"]
+    assert j.name == "johnson_su"
+    p = j.params
+    y = j.transform.transform(x)
+    m, s = y.mean(), y.std()
+    ref_j = stats.johnsonsu.logpdf(x, (p["gamma"] - m) / s, p["eta"] / s, loc=p["epsilon"], scale=p["lambda"]).sum()
+    assert j.loglik == pytest.approx(ref_j, rel=1e-10)
+    assert j.n_params == 4 and j.aic == pytest.approx(8.0 - 2.0 * ref_j, rel=1e-10)
+
+
 def test_ad_and_skewness_columns_match_scipy():
     # scipy.stats.anderson statistic (method= pinned for 1.17) and scipy.stats.skew as second opinions.
     x = np.random.default_rng(5).gamma(2.0, 3.0, 200)
