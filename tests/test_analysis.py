@@ -48,6 +48,44 @@ def test_lognormal_expected_ppm_matches_scipy_lognorm():
     assert a.capability.ppm_overall == pytest.approx(ref, rel=1e-6)
 
 
+def test_spec_limits_mapped_through_yeojohnson_match_scipy():
+    """Specs through Yeo–Johnson: ppm = Φ tails of scipy.stats.yeojohnson(spec, λ) against
+    the mean and SD of scipy.stats.yeojohnson(x, λ) (Yeo & Johnson 2000; scipy as second
+    opinion). Data with negatives, so Box–Cox and log are out."""
+    x = np.random.default_rng(3).gamma(2.0, 2.0, 300) - 1.5
+    a = analyze(x, transform="yeojohnson", lsl=-2.0, usl=12.0, chart="individuals")
+    lam = a.transform.params_["lambda"]
+    y = stats.yeojohnson(x, lam)
+    m, s = y.mean(), y.std(ddof=1)
+    lo, hi = stats.yeojohnson(np.array([-2.0, 12.0]), lam)
+    assert a.capability.lsl_transformed == pytest.approx(lo, rel=1e-10)
+    assert a.capability.usl_transformed == pytest.approx(hi, rel=1e-10)
+    ref = 1e6 * (stats.norm.cdf((lo - m) / s) + stats.norm.sf((hi - m) / s))
+    assert a.capability.ppm_overall == pytest.approx(ref, rel=1e-8)
+    assert a.capability.ppk == pytest.approx(min(hi - m, m - lo) / (3 * s), rel=1e-10)
+
+
+def test_spec_limits_mapped_through_johnson_su_match_scipy():
+    """Specs through Johnson S_U: if T(X) ~ N(m, s²) with T = γ + η·asinh((x − ε)/λ), then
+    X ~ johnsonsu(a=(γ − m)/s, b=η/s, loc=ε, scale=λ) (Johnson 1949), so the overall ppm
+    equals that distribution's tails (scipy.stats.johnsonsu as second opinion)."""
+    x = stats.johnsonsu(1.0, 1.5, loc=10.0, scale=3.0).rvs(size=2000, random_state=np.random.default_rng(3))
+    a = analyze(x, transform="johnson", lsl=-5.0, usl=14.0, chart="individuals")
+    assert a.transform.name == "johnson_su"
+    p = a.transform.params_
+    y = a.transformed
+    m, s = y.mean(), y.std(ddof=1)
+    d = stats.johnsonsu((p["gamma"] - m) / s, p["eta"] / s, loc=p["epsilon"], scale=p["lambda"])
+    assert a.capability.ppm_overall == pytest.approx(1e6 * (d.cdf(-5.0) + d.sf(14.0)), rel=1e-8)
+    # the limits in units are that distribution's Φ(±3) quantiles on the individuals chart
+    # when the centre and sigma are swapped in (same back-transform, scipy ppf)
+    ch = a.chart
+    dw = stats.johnsonsu((p["gamma"] - ch.center) / ch.sigma_within, p["eta"] / ch.sigma_within,
+                         loc=p["epsilon"], scale=p["lambda"])
+    assert a.limits_units.ucl_value == pytest.approx(dw.ppf(stats.norm.cdf(3.0)), rel=1e-9)
+    assert a.limits_units.lcl_value == pytest.approx(dw.ppf(stats.norm.cdf(-3.0)), rel=1e-9)
+
+
 def test_auto_prefers_log_for_lognormal_and_none_for_normal():
     rng = np.random.default_rng(4)
     assert analyze(rng.lognormal(0, 0.5, 400)).transform.name == "log"
@@ -65,11 +103,27 @@ def test_phase_two_reproduces_phase_one_limits_on_same_data():
     np.testing.assert_allclose(a2.chart.lcl, a1.chart.lcl, rtol=1e-12)
 
 
-def test_phase_two_flags_a_shifted_process():
+def test_phase_two_uses_frozen_limits_and_flags_a_shifted_process():
+    """Phase II (Montgomery, individuals chart; NIST e-Handbook 6.3.2): limits are the frozen
+    centre ± 3 frozen sigma, never re-estimated; the new data are only located against them.
+    A lognormal process whose log-mean moved by 0.6 (over two frozen sigmas) must signal."""
     rng = np.random.default_rng(7)
     base = analyze(rng.lognormal(0, 0.3, 200)).to_baseline()
-    shifted = analyze(rng.lognormal(0.6, 0.3, 50), baseline=base)
+    assert base.transform_name == "log"
+    new = rng.lognormal(0.6, 0.3, 50)
+    shifted = analyze(new, baseline=base, usl=5.0)
+    c, s = base.chart.center, base.chart.sigma_within
+    assert shifted.chart.ucl_value == pytest.approx(c + 3 * s, rel=1e-12)
+    assert shifted.chart.lcl_value == pytest.approx(c - 3 * s, rel=1e-12)
+    # in units: exp of the frozen log-scale limits (definition of the log transform)
+    assert shifted.limits_units.ucl_value == pytest.approx(math.exp(c + 3 * s), rel=1e-12)
+    np.testing.assert_allclose(shifted.transformed, np.log(new), rtol=1e-12)
+    # capability describes the new data: its own ln-mean and ln-SD (numpy), same frozen log
+    ln = np.log(new)
+    assert shifted.capability.center == pytest.approx(ln.mean(), rel=1e-12)
+    assert shifted.capability.sigma_overall == pytest.approx(ln.std(ddof=1), rel=1e-12)
     assert not shifted.in_control
+    assert any(v.rule in ("WE1", "WE2", "WE3", "WE4") for v in shifted.chart.violations)
 
 
 def test_fitted_bound_never_hides_a_spec_limit():
@@ -98,6 +152,13 @@ def test_exclusions_are_kept_with_reasons():
     assert {"row": 11, "point": 10, "reason": "gauge dropped"} in [dict(e) for e in a.excluded]
     b = analyze(x, chart="individuals")
     assert a.chart.sigma_within < b.chart.sigma_within
+    # Phase I exclusion (Montgomery ch. 6): the moving ranges touching point 10 leave the
+    # estimate; sigma = mean of the others / d2(2), d2(2) = 2/sqrt(pi) (normal theory)
+    y = a.transformed
+    mr = np.abs(np.diff(y))
+    keep = [i for i in range(mr.size) if i not in (9, 10)]  # |y10 − y9| and |y11 − y10|
+    assert a.chart.sigma_within == pytest.approx(mr[keep].mean() / (2 / math.sqrt(math.pi)), rel=1e-12)
+    assert a.chart.center == pytest.approx(np.delete(y, 10).mean(), rel=1e-12)
 
 
 def test_to_dict_is_strict_json():
