@@ -278,7 +278,10 @@ def _normalise_exclude(exclude: Any) -> tuple[tuple[int, str], ...]:
         try:
             i = int(idx)
         except (TypeError, ValueError):
-            raise ConfigError(f"Excluded point {idx!r} is not a point number.") from None
+            raise ConfigError(
+                f"Excluded point {idx!r} is not a point number: list the chart points to exclude as "
+                "whole numbers counted from 0 (the first point is 0)."
+            ) from None
         out.append((i, str(reason or "assignable cause")))
     return tuple(out)
 
@@ -388,6 +391,13 @@ def analyze(
     required_index = check_optional_float(required_index, "required_index", func)
     if required_index is None or required_index <= 0:
         raise ConfigError("The required capability index must be a positive number such as 1.33.")
+    conf = check_optional_float(confidence, "confidence", func)
+    if conf is None or not 0.0 < conf < 1.0:
+        raise ConfigError(
+            f"The confidence level must be a fraction between 0 and 1, such as 0.95 for 95 %. "
+            f"Got {confidence!r}: give 0.95 (or 0.90, 0.99) rather than a percentage."
+        )
+    confidence = conf
     if lsl is not None and usl is not None and lsl >= usl:
         raise ConfigError(f"The lower spec limit ({lsl:g}) must be below the upper spec limit ({usl:g}).")
     check_choice(transform, TRANSFORM_CHOICES, "transform", func)

@@ -764,9 +764,10 @@ def _parse_exclude(exclude: Any, n_points: int, unit: str) -> tuple[Exclusion, .
         out.setdefault(i, str(reason) if reason is not None else "")
     if bad:
         raise ConfigError(
-            f"The 'exclude' parameter of control_chart names {unit} {', '.join(bad[:10])}"
+            f"The points to exclude name {unit} {', '.join(bad[:10])}"
             f"{' …' if len(bad) > 10 else ''}, which the chart does not have: it has {n_points} "
-            f"{unit}s, numbered 0 to {n_points - 1}. Correct the point numbers."
+            f"{unit}s, numbered 0 to {n_points - 1} (the first is 0). Correct the point numbers "
+            "in the exclusion list."
         )
     return tuple(Exclusion(i, out[i] or "excluded by user") for i in sorted(out))
 

@@ -210,3 +210,18 @@ def test_large_skewed_sample_stays_finite():
     x = np.random.default_rng(12).lognormal(0, 1, 100_000)
     d = analyze(x, usl=50).to_dict()
     assert math.isfinite(d["normality"]["raw"]["ad_statistic"])
+
+
+def test_bad_options_are_refused_in_plain_words():
+    """A confidence level given as a percentage, or a point number that is not on the chart,
+    is refused with what to do next, whether or not spec limits are given (DESIGN.md: every
+    refusal says what, where and what next)."""
+    x = np.random.default_rng(13).lognormal(0, 0.3, 50)
+    for kw in ({"usl": 3.0}, {}):
+        with pytest.raises(QcnormError, match=r"confidence level.*between 0 and 1.*Got 95.*0\.95"):
+            analyze(x, confidence=95, **kw)
+    with pytest.raises(QcnormError, match=r"observation 100.*50 observations, numbered 0 to 49"):
+        analyze(x, chart="individuals", exclude=[100])
+    with pytest.raises(QcnormError, match=r"'a' is not a point number.*counted from 0"):
+        analyze(x, exclude=["a"])
+    assert analyze(x, usl=3.0, confidence=0.9).capability.confidence == 0.9
