@@ -335,10 +335,12 @@ def _indices(lo: float | None, hi: float | None, mu: float, sigma: float):
 def _check_positive(v: Any, name: str) -> float:
     f = check_optional_float(v, name, _FUNC)
     if f is None or f <= 0.0:
-        raise ConfigError(
-            f"The '{name}' parameter of {_FUNC} must be a positive number. Got {v!r} instead. "
+        hint = (
             "A sigma of zero means the values do not vary: check the gauge resolution."
+            if name.startswith("sigma")
+            else "Give the index the process must reach, such as 1.33."
         )
+        raise ConfigError(f"The '{name}' parameter of {_FUNC} must be a positive number. Got {v!r} instead. {hint}")
     return f
 
 

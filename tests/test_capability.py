@@ -267,6 +267,8 @@ def test_summary_and_json():
         ({"lsl": 0.0, "usl": 10.0, "target": 11.0}, ConfigError, "target"),
         ({"usl": 10.0, "sigma_within": 0.0}, ConfigError, "sigma_within"),
         ({"usl": 10.0, "confidence": 1.5}, ConfigError, "confidence"),
+        ({"usl": 10.0, "sigma_overall": -1.0}, ConfigError, "sigma_overall.*gauge resolution"),
+        ({"usl": 10.0, "required_index": 0.0}, ConfigError, "required_index.*such as 1.33"),
     ],
 )
 def test_bad_settings(kw, err, words):
