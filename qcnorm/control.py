@@ -124,8 +124,26 @@ class Violation(Result):
     points: tuple[int, ...]
 
 
+class _LimitValues:
+    """``ucl_value`` / ``lcl_value``: a limit shown as one number when every point shares it."""
+
+    __slots__ = ()
+    ucl: np.ndarray
+    lcl: np.ndarray
+
+    @property
+    def ucl_value(self) -> float:
+        """The upper limit when it is the same for every point, else NaN."""
+        return _common_value(self.ucl)
+
+    @property
+    def lcl_value(self) -> float:
+        """The lower limit when it is the same for every point, else NaN."""
+        return _common_value(self.lcl)
+
+
 @dataclass(frozen=True, slots=True, eq=False)
-class DispersionChart(Result):
+class DispersionChart(Result, _LimitValues):
     """The companion chart of within-subgroup spread.
 
     Attributes
@@ -155,16 +173,6 @@ class DispersionChart(Result):
     def center_value(self) -> float:
         """The centre line when it is the same for every point, else NaN."""
         return _common_value(self.center)
-
-    @property
-    def ucl_value(self) -> float:
-        """The upper limit when it is the same for every point, else NaN."""
-        return _common_value(self.ucl)
-
-    @property
-    def lcl_value(self) -> float:
-        """The lower limit when it is the same for every point, else NaN."""
-        return _common_value(self.lcl)
 
 
 @dataclass(frozen=True, slots=True)
@@ -243,7 +251,7 @@ class ChartBaseline(Result):
 
 
 @dataclass(frozen=True, slots=True, eq=False)
-class ControlChart(Result):
+class ControlChart(Result, _LimitValues):
     """A Shewhart control chart on the transformed scale.
 
     Attributes
@@ -314,16 +322,6 @@ class ControlChart(Result):
     _skip_in_dict: ClassVar[tuple[str, ...]] = ()
 
     @property
-    def ucl_value(self) -> float:
-        """The upper limit when it is the same for every point, else NaN."""
-        return _common_value(self.ucl)
-
-    @property
-    def lcl_value(self) -> float:
-        """The lower limit when it is the same for every point, else NaN."""
-        return _common_value(self.lcl)
-
-    @property
     def z(self) -> np.ndarray:
         """Standardized points (point − center)/sigma_point, as used by the run rules."""
         return (self.points - self.center) / self.sigma_points
@@ -376,7 +374,7 @@ class ControlChart(Result):
 
 
 @dataclass(frozen=True, slots=True, eq=False)
-class UnitsLimits(Result):
+class UnitsLimits(Result, _LimitValues):
     """Centre, limits and points of a chart in measurement units.
 
     Attributes
@@ -401,16 +399,6 @@ class UnitsLimits(Result):
     ucl_note: str | None
     lcl_note: str | None
     transform: str
-
-    @property
-    def ucl_value(self) -> float:
-        """The upper limit when it is the same for every point, else NaN."""
-        return _common_value(self.ucl)
-
-    @property
-    def lcl_value(self) -> float:
-        """The lower limit when it is the same for every point, else NaN."""
-        return _common_value(self.lcl)
 
 
 def _common_value(a: np.ndarray) -> float:
