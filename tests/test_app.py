@@ -168,3 +168,39 @@ def test_paste_from_spreadsheet():
     [b for b in at.button if b.label.startswith("Use the pasted")][0].click().run()
     assert not at.exception and not at.error
     assert _metrics(at)["Values used"] == "40"
+
+
+MESSY = ROOT / "tests" / "data" / "messy"
+
+
+def test_censored_file_speaks_in_the_apps_words_and_keeps_ids_out_of_subgroups():
+    """censored.csv: the reader's hints name Python arguments (include_censored=True,
+    excluded_rows()); on the page they must name the app's own controls instead. Its
+    'Sample' column numbers each row (an id), so it must not be pre-chosen as subgroups."""
+    at = _upload(_app().run(), "censored.csv", (MESSY / "censored.csv").read_bytes())
+    assert not at.exception
+    assert at.selectbox(key="qc_subgroup").value is None
+    # a blank subgroup/time choice reads as "none", not as Streamlit's "Choose an option"
+    assert at.selectbox(key="qc_subgroup").proto.placeholder.startswith("none")
+    assert at.selectbox(key="qc_time").proto.placeholder.startswith("none")
+    shown = [w.value for w in at.warning] + [c.value for c in at.caption]
+    shown += [str(df.value.to_string()) for df in at.dataframe]
+    text = " ".join(shown)
+    assert "censored" in text  # the warning is there ...
+    assert "include_censored" not in text and "excluded_rows()" not in text  # ... in app words
+    assert "Use censored values" in text
+
+
+def test_demo_subgroup_column_is_still_guessed():
+    """Repeated labels (demo 'Subgroup': five parts each) are a subgroup column."""
+    at = _app().run()
+    assert at.selectbox(key="qc_subgroup").value == "Subgroup"
+
+
+def test_sheet_note_points_at_the_sheet_control():
+    at = _upload(_app().run(), "title_two_sheets.xlsx", (MESSY / "title_two_sheets.xlsx").read_bytes(),
+                 mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")
+    notes = " ".join(c.value for c in at.caption)
+    assert "Read sheet 'Data'" in notes
+    assert "sheet=" not in notes and "decimal=" not in notes
+    assert "under 'Sheet'" in notes

@@ -19,8 +19,8 @@ from ..caution import CAUTION
 from ..errors import QcnormError
 from . import state
 
-__all__ = ["CAUTION", "caution", "style", "run_page", "guard", "show_error", "fmt", "fmt_ci",
-           "next_step", "sidebar_summary", "require_analysis"]
+__all__ = ["CAUTION", "caution", "style", "run_page", "guard", "show_error", "fmt", "fmt_ci", "fmt_p",
+           "next_step", "sidebar_summary", "require_analysis", "app_words"]
 
 log = logging.getLogger("qcnorm.ui")
 
@@ -49,10 +49,37 @@ def style() -> None:
     )
 
 
+#: Hints in the reader's messages that name a Python argument, and the same hint in the
+#: words of the app's own controls (the reader also serves scripts and the CLI, so its
+#: messages name the argument; on a page the technician needs the control instead).
+_APP_WORDS: tuple[tuple[str, str], ...] = (
+    ("pass sheet= to read another", "choose another under 'Sheet'"),
+    ("Pass one of these names as sheet=", "Choose one of these under 'Sheet'"),
+    ("pass include_censored=True to use the stated limits instead",
+     "tick 'Use censored values such as '<0.05' at their stated limit' to use the stated limits instead"),
+    ("(include_censored=True uses the limit)", "(tick 'Use censored values' to use the limit)"),
+    ("see excluded_rows() before trusting the analysis", "see the rows left out, listed below, before "
+                                                         "trusting the analysis"),
+    ("(see excluded_rows())", "(see the list of rows left out)"),
+    ("Pass decimal='.' or decimal=',' to read them the other way",
+     "If that is wrong, correct the decimal marks in the file (or paste the values) and load it again"),
+    ("Pass decimal='.' or decimal=',' to choose",
+     "To use the others, correct the decimal marks in the file (or paste the values) and load it again"),
+)
+
+
+def app_words(text: str) -> str:
+    """A reader message with its Python-argument hints put in the words of the app's controls."""
+    out = str(text)
+    for api, app in _APP_WORDS:
+        out = out.replace(api, app)
+    return out
+
+
 def show_error(exc: BaseException) -> None:
     """One short message: the core's own words for user problems, an apology otherwise."""
     if isinstance(exc, QcnormError):
-        st.error(str(exc), icon=":material/front_hand:")
+        st.error(app_words(str(exc)), icon=":material/front_hand:")
     else:
         log.exception("qcnorm internal error on the page")
         st.error(f"{APOLOGY} (internal detail: {type(exc).__name__})", icon=":material/build:")
@@ -103,6 +130,21 @@ def fmt(v: Any, digits: int = 4) -> str:
     if f != 0 and (abs(f) >= 1e6 or abs(f) < 1e-4):
         return f"{f:.{digits - 1}e}"
     return f"{f:.{digits}g}"
+
+
+def fmt_p(v: Any) -> str:
+    """A p-value for reading: '< 0.0001' below that, else 4 significant digits (as fmt)."""
+    if v is None:
+        return "—"
+    try:
+        f = float(v)
+    except (TypeError, ValueError):
+        return str(v)
+    if math.isnan(f):
+        return "—"
+    if f < 1e-4:
+        return "< 0.0001"
+    return fmt(f)
 
 
 def fmt_ppm(v: Any) -> str:

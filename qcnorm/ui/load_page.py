@@ -14,7 +14,10 @@ import streamlit as st
 from . import common, compute, state
 
 KINDS = {"demo": "Demo data", "upload": "Upload a file", "paste": "Paste from a spreadsheet"}
+_LOADED_AS = {"demo": "demo data", "upload": "uploaded", "paste": "pasted"}
 _SUBGROUP_NAMES = ("subgroup", "sub-group", "subgroup no", "group", "sample", "batch", "lot")
+_NO_SUBGROUP = "none — each value is its own point"
+_NO_TIME = "none — file order"
 _TIME_NAMES = ("time", "timestamp", "datetime", "date time", "date", "order", "sequence", "seq")
 
 
@@ -50,6 +53,17 @@ def _guess(columns: list[str], names: tuple[str, ...]) -> str | None:
     return None
 
 
+def _groups_rows(raw: Any, column: str | None) -> bool:
+    """True when some label of ``column`` is on more than one row: a column such as
+    'Sample' that numbers each part is an id, not a subgroup (subgroups of one value
+    would silently turn the individuals chart into an X-bar chart without ranges)."""
+    if column is None or raw is None:
+        return False
+    labels = [str(v).strip() for v in raw.frame[column].tolist()]
+    labels = [v for v in labels if v]
+    return len(set(labels)) < len(labels)
+
+
 def _new_source(src: state.Source) -> None:
     """Install new data and pre-select what a person would pick first."""
     state.set_source(src)
@@ -58,7 +72,8 @@ def _new_source(src: state.Source) -> None:
     cols = list(raw.columns) if raw is not None else []
     if infos:
         st.session_state["qc_pick"] = infos[0].name
-    st.session_state["qc_subgroup"] = _guess(cols, _SUBGROUP_NAMES)
+    guess = _guess(cols, _SUBGROUP_NAMES)
+    st.session_state["qc_subgroup"] = guess if _groups_rows(raw, guess) else None
     st.session_state["qc_time"] = _guess(cols, _TIME_NAMES)
     _fill_specs_for_pick()
 
@@ -118,7 +133,7 @@ def _source_section() -> None:
                 _new_source(state.Source(name="pasted text", data=text.encode("utf-8"), kind="paste"))
     src = state.source()
     if src is not None:
-        st.caption(f"Loaded: **{src.name}** ({len(src.data):,} bytes, {KINDS[src.kind].lower()}).")
+        st.caption(f"Loaded: **{src.name}** ({len(src.data):,} bytes, {_LOADED_AS[src.kind]}).")
 
 
 # --------------------------------------------------------------------------------------
@@ -163,12 +178,13 @@ def _columns_section() -> bool:
         if st.session_state.get(key) not in others:
             st.session_state[key] = None
     c1, c2, c3 = st.columns([1, 1, 0.7])
-    c1.selectbox("Subgroup column", others, key="qc_subgroup",
-                 format_func=lambda c: "none — each value is its own point" if c is None else c,
+    # the placeholder is what a blank choice shows (Streamlit shows it, not format_func, for None)
+    c1.selectbox("Subgroup column", others, key="qc_subgroup", placeholder=_NO_SUBGROUP,
+                 format_func=lambda c: _NO_SUBGROUP if c is None else c,
                  help="Rows with the same label form one rational subgroup (X̄ chart). "
                       "None: individuals and moving-range chart.")
-    c2.selectbox("Time column", others, key="qc_time",
-                 format_func=lambda c: "none" if c is None else c,
+    c2.selectbox("Time column", others, key="qc_time", placeholder=_NO_TIME,
+                 format_func=lambda c: _NO_TIME if c is None else c,
                  help="Shown beside each point on the charts. Rows are used in file order.")
     c3.text_input("Units", key="qc_units", help="Shown on every axis, e.g. µm, mm, HRC.")
     st.checkbox("Use censored values such as '<0.05' at their stated limit", key="qc_include_censored",
@@ -222,14 +238,17 @@ def _ingest_section() -> None:
         fmt.append(f"sheet '{rep.sheet}'")
     st.caption("Read as: " + ", ".join(fmt) + ".")
     for w in rep.warnings:
-        st.warning(w)
+        st.warning(common.app_words(w))
     for n in rep.notes:
-        st.caption(f"Note: {n}")
+        st.caption(f"Note: {common.app_words(n)}")
     if rep.excluded:
         st.markdown(f"**Rows left out ({len(rep.excluded)})** — row numbers as in the file:")
-        st.dataframe(m.excluded_rows(), hide_index=True, width="stretch", height=min(300, 38 + 35 * len(rep.excluded)))
+        rows = m.excluded_rows()
+        if "reason" in rows.columns:
+            rows = rows.assign(reason=rows["reason"].map(common.app_words))
+        st.dataframe(rows, hide_index=True, width="stretch", height=min(300, 38 + 35 * len(rep.excluded)))
     else:
-        st.success("Every row of this column was used: nothing was left out.")
+        st.success("Every row of this characteristic was used: nothing was left out.")
 
 
 def _preview_section() -> None:
