@@ -108,6 +108,8 @@ def test_upload_choose_column_specs_override_and_exclude(rng):
     a = analyze(m, lsl=1.0, usl=9.0, target=3.0, transform="boxcox", units="mm")
     assert a.transform.name == "boxcox"
     assert any(a.transform.describe() in md.value for md in at.markdown)
+    # an override says so, and where to see the whole ranking again
+    assert any("chose this transform yourself" in c.value for c in at.caption)
 
     _go(at, "capability")
     assert _metrics(at)["Cpk"] == fmt(a.capability.cpk, 3)
@@ -204,3 +206,18 @@ def test_sheet_note_points_at_the_sheet_control():
     assert "Read sheet 'Data'" in notes
     assert "sheet=" not in notes and "decimal=" not in notes
     assert "under 'Sheet'" in notes
+
+
+def test_tiny_p_values_read_as_less_than():
+    """Demo Ra is strongly skewed: its raw Anderson–Darling p is far below 1e-4 (core's own
+    number, checked here first), which the page shows as '< 0.0001', not as 1e-23."""
+    at = _go(_app().run(), "shape")
+    pick = at.session_state["qc_pick"]
+    m = read_measurements(WIDE, column=pick, subgroup="Subgroup", order="Time")
+    a = analyze(m, usl=1.6, units="µm")
+    assert a.normality_raw.ad_p_value < 1e-4
+    tbl = at.dataframe[0].value
+    row = tbl[tbl["diagnostic"] == "Anderson–Darling p-value"]
+    assert row["measurements"].item() == "< 0.0001"
+    assert row["after transform"].item() == fmt(a.normality_transformed.ad_p_value)
+    assert not any("chose this transform yourself" in c.value for c in at.caption)  # auto: no note

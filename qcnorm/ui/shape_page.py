@@ -36,18 +36,19 @@ def _controls() -> None:
 def normality_table(a) -> pd.DataFrame:
     """Before/after table of the normality diagnostics held in the Analysis."""
     r, t = a.normality_raw, a.normality_transformed
+    p = common.fmt_p
     rows = [
-        ("Anderson–Darling A²", r.ad_statistic, t.ad_statistic),
-        ("Anderson–Darling p-value", r.ad_p_value, t.ad_p_value),
-        ("Shapiro–Wilk W", r.shapiro_w, t.shapiro_w),
-        ("Shapiro–Wilk p-value", r.shapiro_p_value, t.shapiro_p_value),
-        ("Skewness", r.skewness, t.skewness),
-        ("Skewness rule-of-thumb limit ±2·√(6/n)", r.skew_rule_limit, t.skew_rule_limit),
-        ("Excess kurtosis", r.excess_kurtosis, t.excess_kurtosis),
-        ("Kurtosis test p-value", r.kurtosis_p_value, t.kurtosis_p_value),
+        ("Anderson–Darling A²", r.ad_statistic, t.ad_statistic, _fmt),
+        ("Anderson–Darling p-value", r.ad_p_value, t.ad_p_value, p),
+        ("Shapiro–Wilk W", r.shapiro_w, t.shapiro_w, _fmt),
+        ("Shapiro–Wilk p-value", r.shapiro_p_value, t.shapiro_p_value, p),
+        ("Skewness", r.skewness, t.skewness, _fmt),
+        ("Skewness rule-of-thumb limit ±2·√(6/n)", r.skew_rule_limit, t.skew_rule_limit, _fmt),
+        ("Excess kurtosis", r.excess_kurtosis, t.excess_kurtosis, _fmt),
+        ("Kurtosis test p-value", r.kurtosis_p_value, t.kurtosis_p_value, p),
     ]
     return pd.DataFrame(
-        [(name, _fmt(b), _fmt(c)) for name, b, c in rows],
+        [(name, f(b), f(c)) for name, b, c, f in rows],
         columns=["diagnostic", "measurements", "after transform"],
     )
 
@@ -62,7 +63,7 @@ def ranking_table(a) -> pd.DataFrame | None:
         "parameters": df["parameters"],
         "ΔAIC": df["delta_aic"].map(_fmt),
         "AIC": df["aic"].map(lambda v: _fmt(v, 6)),
-        "AD p after": df["ad_p_value"].map(_fmt),
+        "AD p after": df["ad_p_value"].map(common.fmt_p),
         "skewness after": df["skewness_after"].map(lambda v: _fmt(v, 3)),
         "note": df["note"],
     })
@@ -80,6 +81,9 @@ def render() -> None:
     tr = a.transform
 
     st.markdown(f"**Transform used:** {tr.describe()}")
+    if state.get("qc_transform") != "auto" and a.phase != "II":
+        st.caption(f"You chose this transform yourself ({TRANSFORM_LABELS.get(state.get('qc_transform'))}), so "
+                   "only it was fitted. Set Transform to Automatic to see every candidate ranked.")
     st.info(a.transform_reason, icon=":material/lightbulb:")
     if a.transform_choice is not None:
         for note in a.transform_choice.notes:
@@ -143,4 +147,3 @@ def render() -> None:
     elif a.phase == "II":
         st.caption("The transform comes from the frozen baseline and is not refitted (Phase II).")
     common.next_step("stability", "Next: 3 · Stability →")
-    _ = state  # pages share state through the widgets above
