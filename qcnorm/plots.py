@@ -26,7 +26,7 @@ import plotly.graph_objects as go
 
 __all__ = [
     "PALETTE", "Bins", "display_name", "histogram_bins", "histogram_figure", "probability_figure",
-    "control_figure", "dispersion_figure", "capability_figure", "ranking_figure",
+    "control_figure", "signal_labels", "dispersion_figure", "capability_figure", "ranking_figure",
     "ppk_overview_figure",
 ]
 
@@ -232,6 +232,31 @@ def _rules_per_point(violations: Any, n: int) -> list[list[str]]:
     return out
 
 
+def signal_labels(triggers: dict[int, list[str]], n: int) -> list[str]:
+    """Text beside each trigger point (in index order): one label per cluster of triggers.
+
+    Run rules fire on neighbouring points again and again during one episode (a shift of
+    the mean trips WE2, WE3 and WE4 on a dozen points), and a label on every point stacks
+    into an unreadable smudge. Triggers closer than ``max(3, n // 40)`` points form one
+    cluster; its first point carries the rule ids of the whole cluster and the others get
+    no text (each keeps its diamond, its hover text and its row in the signals table).
+    """
+    idx = sorted(triggers)
+    gap = max(3, n // 40)
+    out: list[str] = []
+    start = 0
+    while start < len(idx):
+        end = start
+        while end + 1 < len(idx) and idx[end + 1] - idx[end] <= gap:
+            end += 1
+        rules: list[str] = []
+        for i in idx[start:end + 1]:
+            rules += [r for r in triggers[i] if r not in rules]
+        out += [",".join(rules)] + [""] * (end - start)
+        start = end + 1
+    return out
+
+
 def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go.Figure:
     """The control chart in measurement units, limits back-transformed (asymmetric).
 
@@ -307,7 +332,7 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
             x=xs[idx], y=pts[idx], mode="markers+text", name="signal (run rule)",
             marker=dict(size=11, color=PALETTE["signal"], symbol="diamond",
                         line=dict(color="white", width=1)),
-            text=[",".join(triggers[i]) for i in idx], textposition="top center",
+            text=signal_labels(triggers, n), textposition="top center",
             textfont=dict(size=11, color=PALETTE["signal"]),
             customdata=[text[i] for i in idx], hovertemplate="%{customdata}<extra></extra>",
         ))

@@ -84,13 +84,41 @@ def test_violations_are_marked_with_their_rule(skewed_analysis):
     assert a.chart.violations, "the planted point should trip a rule"
     fig = plots.control_figure(a)
     sig = [t for t in fig.data if t.name == "signal (run rule)"][0]
-    marked = dict(zip((int(v) - 1 for v in sig.x), sig.text))
-    for v in a.chart.violations:  # each trigger point carries its rule id
-        assert v.rule in marked[v.index].split(",")
+    marked = dict(zip((int(v) - 1 for v in sig.x), sig.customdata))
+    labels = [t for t in sig.text if t]
+    for v in a.chart.violations:  # each trigger point names its rule on hover and in a label
+        assert "rules: " in marked[v.index] and v.rule in marked[v.index]
+        assert any(v.rule in lab.split(",") for lab in labels)
     ring = [t for t in fig.data if t.name == "part of a signal pattern"]
     ringed = set() if not ring else {int(v) - 1 for v in ring[0].x}
     for v in a.chart.violations:  # every point of each pattern is marked one way or the other
         assert set(v.points) <= ringed | set(marked)
+
+
+def test_signal_labels_do_not_stack_during_one_episode():
+    """A sustained shift of the mean trips several rules on many neighbouring points (a fact
+    of the Western Electric zone rules); the chart labels the episode once, not every point."""
+    rng = np.random.default_rng(11)
+    x = rng.normal(10.0, 1.0, 150)
+    x[70:90] += 2.5  # one episode: a 2.5-sigma shift for 20 points
+    a = analyze(x, transform="none", chart="individuals")
+    triggers = {int(v.index) for v in a.chart.violations}
+    assert len(triggers) >= 8, "the planted shift should trip rules on many points"
+    fig = plots.control_figure(a)
+    sig = [t for t in fig.data if t.name == "signal (run rule)"][0]
+    assert len(sig.x) == len(triggers)  # every trigger keeps its diamond
+    labelled = [int(px) for px, t in zip(sig.x, sig.text) if t]
+    assert len(labelled) < len(triggers) / 2
+    # no two labels closer than the clustering gap (max(3, n // 40) = 3 points here)
+    assert all(b - a_ > 3 for a_, b in zip(labelled, labelled[1:]))
+    # every rule that fired appears in some label
+    fired = {v.rule for v in a.chart.violations}
+    assert fired <= {r for t in sig.text if t for r in t.split(",")}
+
+
+def test_signal_labels_keep_separate_episodes_apart():
+    labels = plots.signal_labels({5: ["WE1"], 6: ["WE2"], 40: ["WE4"]}, 100)
+    assert labels == ["WE1,WE2", "", "WE4"]
 
 
 def test_excluded_points_drawn_grey():
