@@ -73,6 +73,10 @@ def test_demo_loads_and_every_page_shows_the_cores_numbers():
     shown = _metrics(at)
     assert shown["Centre line"] == f"{fmt(a.limits_units.center)} µm"
     assert shown["Signals"] == str(len(a.chart.violations) + len(a.chart.dispersion.violations))
+    # the chart type in words, not the core's id
+    assert a.chart.chart == "xbar_r"
+    assert any("Chart: subgroup mean and range (X̄–R)" in c.value for c in at.caption)
+    assert not any("Chart: xbar_r" in c.value for c in at.caption)
     assert any("authorised person" in c.value for c in at.caption)
 
     _go(at, "capability")

@@ -197,7 +197,11 @@ def test_freeze_then_next_shift_is_phase_two(db):
     _go(at, "load")
     _go(at, "release")
     info = _texts(at.info)
-    assert "Phase II" in info and "not* refitted" in info and "baseline #1" in info
+    assert "Phase II" in info and "*without refitting*" in info and "baseline #1" in info
+    # the Phase II notice names the frozen transform once, in words (no id, no repeated reason)
+    assert "Natural log" in info or "Box–Cox" in info or "Yeo–Johnson" in info or "Johnson" in info
+    # icons are Material Symbols, not emoji (a plant PC often has no emoji font)
+    assert all(not i.icon or i.icon.startswith(":material/") for i in at.info)
     _save_shift(at, "Dana Whit", "2026-11-25 C")
     with HistoryStore(db) as s:
         b = s.latest_baseline("Ra")

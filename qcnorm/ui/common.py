@@ -68,6 +68,19 @@ _APP_WORDS: tuple[tuple[str, str], ...] = (
 )
 
 
+#: Chart types in words (the core's ids are 'individuals', 'xbar_r', 'xbar_s').
+CHART_WORDS = {"individuals": "individuals and moving range (I–MR)", "xbar_r": "subgroup mean and range (X̄–R)",
+               "xbar_s": "subgroup mean and standard deviation (X̄–S)"}
+#: Icons as Material Symbols (drawn by Streamlit's own font: no emoji font is needed,
+#: which a plant PC or a minimal Linux install often lacks).
+ICONS = {"info": ":material/info:", "frozen": ":material/ac_unit:", "stop": ":material/front_hand:",
+         "warning": ":material/warning:"}
+
+
+def chart_words(chart: Any) -> str:
+    return CHART_WORDS.get(str(chart), str(chart))
+
+
 def app_words(text: str) -> str:
     """A reader message with its Python-argument hints put in the words of the app's controls."""
     out = str(text)

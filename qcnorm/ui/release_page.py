@@ -325,18 +325,19 @@ def _phase_notice(a: Analysis, b: BaselineRecord | None, name: str) -> None:
     if b is None:
         st.info(f"No baseline is frozen for **{name}** yet: this is a Phase I analysis (transform and "
                 "limits estimated from the data loaded). Freeze a baseline below once the period is "
-                "stable and its assignable causes are excluded.", icon="ℹ️")
+                "stable and its assignable causes are excluded.", icon=common.ICONS["info"])
         return
     st.toggle(f"Chart against the frozen baseline #{b.id} (Phase II)", key="rs_use_baseline",
               help="Off: estimate transform and limits from the data loaded (Phase I).")
     who = f"frozen by {b.created_by} on {b.created_at[:10]} from {b.n:,} values ({b.reason})"
     if a.phase == "II":
         st.info(f"**Phase II** — these data are charted against the frozen baseline #{b.id} of **{name}** "
-                f"({who}). Transform **{a.transform.name}** is *not* refitted: {a.transform_reason}",
-                icon="🧊")
+                f"({who}). The baseline's transform ({a.transform.describe().rstrip('.')}) is applied "
+                "*without refitting*, so this shift is judged on the same scale as the baseline.",
+                icon=common.ICONS["frozen"])
     else:
         st.warning(f"**Phase I** — a baseline (#{b.id}, {who}) exists for **{name}**, but these data are "
-                   "analysed on their own: transform and limits are re-estimated.", icon="ℹ️")
+                   "analysed on their own: transform and limits are re-estimated.", icon=common.ICONS["info"])
 
 
 def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> None:
@@ -363,18 +364,18 @@ def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> Non
     missing = [w for w, v in (("the operator's name", operator), ("a shift label", shift)) if not v]
     if missing:
         st.error(f"Not saved: enter {' and '.join(missing)} — every saved shift says who measured it "
-                 "and when.", icon="✋")
+                 "and when.", icon=common.ICONS["stop"])
         return
     if earlier is not None and not st.session_state.get("rs_save_again"):
         st.warning(f"Not saved again: these results are already saved as #{earlier}. Tick the box to "
-                   "save a correction that replaces it.", icon="✋")
+                   "save a correction that replaces it.", icon=common.ICONS["stop"])
         return
     try:
         new_id = save_shift(s, a, b, operator=operator, shift=shift, lot=rs.get("rs_lot").strip(),
                             note=rs.get("rs_note").strip(), supersedes=earlier)
     except StoreError as exc:
         st.error(f"Not saved — the history database did not accept it. Nothing already saved was "
-                 f"changed, and your entries are still in the form. {exc}", icon="✋")
+                 f"changed, and your entries are still in the form. {exc}", icon=common.ICONS["stop"])
         return
     saved = dict(rs.get("rs_saved") or {})
     saved[fingerprint] = new_id
@@ -391,7 +392,7 @@ def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
     st.subheader("Freeze as baseline")
     st.caption(f"Freezes the Phase I estimate of the data loaded for **{name}**: transform "
                f"**{a1.transform.name}** fitted to these {a1.n:,} values, centre and within sigma of the "
-               f"{a1.chart.chart} chart ({len(a1.excluded)} exclusion(s)). Later shifts are then charted "
+               f"{common.chart_words(a1.chart.chart)} chart ({len(a1.excluded)} exclusion(s)). Later shifts are then charted "
                "against it without refitting (Phase II). A new freeze replaces it for later shifts; "
                "earlier records keep the baseline they were charted against.")
     with st.form("rs_freeze_form"):
@@ -408,17 +409,17 @@ def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
     by, why = rs.get("rs_freeze_by").strip(), rs.get("rs_freeze_reason").strip()
     missing = [w for w, v in (("who freezes it", by), ("why this period is a good baseline", why)) if not v]
     if missing:
-        st.error(f"Not frozen: enter {' and '.join(missing)}.", icon="✋")
+        st.error(f"Not frozen: enter {' and '.join(missing)}.", icon=common.ICONS["stop"])
         return
     if not a1.in_control and not st.session_state.get("rs_freeze_unstable"):
         st.error("Not frozen: the Phase I chart is not in statistical control. Find and exclude the "
-                 "assignable causes on 3 · Stability first, or tick the box to freeze anyway.", icon="✋")
+                 "assignable causes on 3 · Stability first, or tick the box to freeze anyway.", icon=common.ICONS["stop"])
         return
     try:
         bid = freeze_baseline(s, a1, by=by, reason=why)
     except StoreError as exc:
         st.error(f"Not frozen — the history database did not accept it. Nothing already saved was "
-                 f"changed. {exc}", icon="✋")
+                 f"changed. {exc}", icon=common.ICONS["stop"])
         return
     rs.put("rs_last_baseline", bid)
     rs.put("rs_use_baseline", True)

@@ -85,7 +85,8 @@ def evidence_table(d: dict[str, Any]) -> pd.DataFrame:
         ("Transform", f"{(d.get('transform') or {}).get('name', '—')}"),
         ("Anderson–Darling p, raw data", _fmt((norm.get("raw") or {}).get("ad_p_value"), 3)),
         ("Anderson–Darling p, after transform", _fmt((norm.get("transformed") or {}).get("ad_p_value"), 3)),
-        ("Chart", f"{ctl.get('chart', '—')}, {ctl.get('n_points', '—')} points, phase {ctl.get('phase', '—')}"),
+        ("Chart", f"{common.chart_words(ctl.get('chart', '—'))}, {ctl.get('n_points', '—')} points, "
+                  f"phase {ctl.get('phase', '—')}"),
         ("Centre line", _fmt(units.get("center")) + u),
         ("Control limits (LCL / UCL)", f"{_fmt(units.get('lcl'))} / {_fmt(units.get('ucl'))}{u}"),
         ("Rule violations", str(len(ctl.get("violations") or []))),
@@ -173,20 +174,20 @@ def _header(s: HistoryStore, r: AnalysisRecord) -> None:
                    "measurements are the ones that were saved.")
     else:
         st.error(f"The stored measurements no longer match their SHA-256 fingerprint ({r.data_sha256}). "
-                 "Do not release on this record; ask the technician to save the shift again.", icon="✋")
+                 "Do not release on this record; ask the technician to save the shift again.", icon=common.ICONS["stop"])
     if r.note:
         st.markdown(f"**Technician's note:** {r.note}")
     if r.supersedes:
         st.caption(f"This record is a correction: it replaces analysis #{r.supersedes}.")
     if d.get("phase") == "II":
         st.info("Phase II: charted against the frozen baseline; transform not refitted. "
-                + str((d.get("transform") or {}).get("reason") or ""), icon="🧊")
+                + str((d.get("transform") or {}).get("reason") or ""), icon=common.ICONS["frozen"])
 
 
 def _baseline_and_earlier(s: HistoryStore, r: AnalysisRecord) -> None:
     if r.baseline_id:
         b = s.get_baseline(r.baseline_id)
-        st.caption(f"Frozen baseline #{b.id}: transform {b.transform}, {b.chart_type} chart, from {b.n:,} "
+        st.caption(f"Frozen baseline #{b.id}: transform {b.transform}, {common.chart_words(b.chart_type)} chart, from {b.n:,} "
                    f"values; frozen by {b.created_by} on {b.created_at[:10]} — {b.reason}")
     h = s.history(r.characteristic)
     earlier = h[h["id"] < r.id].tail(8)
@@ -207,7 +208,7 @@ def _chart(s: HistoryStore, r: AnalysisRecord) -> None:
         st.warning("The re-run of this analysis from its stored measurements and settings does not "
                    f"reproduce the stored figures ({', '.join(rep.mismatches)}); the chart and the PDF "
                    "below come from the re-run (qcnorm " + str(rep.analysis.version) + "), the table and "
-                   f"checklist from the stored record (qcnorm {r.qcnorm_version}).", icon="⚠")
+                   f"checklist from the stored record (qcnorm {r.qcnorm_version}).", icon=common.ICONS["warning"])
     st.plotly_chart(plots.control_figure(rep.analysis), width="stretch", key=f"rs_review_chart_{r.id}")
     st.plotly_chart(plots.dispersion_figure(rep.analysis), width="stretch", key=f"rs_review_disp_{r.id}")
     if not rep.mismatches:
@@ -250,10 +251,10 @@ def _decision_form(s: HistoryStore, r: AnalysisRecord) -> None:
                                   comment=rs.get("rs_comment"))
     except StoreError as exc:
         st.error(f"Decision not recorded — the history database did not accept it. Nothing already "
-                 f"saved was changed, and your entries are still in the form. {exc}", icon="✋")
+                 f"saved was changed, and your entries are still in the form. {exc}", icon=common.ICONS["stop"])
         return
     if not ok:
-        st.error(msg, icon="✋")
+        st.error(msg, icon=common.ICONS["stop"])
         return
     rs.flash("success", msg)
     rs.put("rs_open_next", r.id)

@@ -73,7 +73,7 @@ def _limits_row(a) -> None:
         st.caption(f"Limits are symmetric on the transformed scale ({a.transform.name}) and therefore "
                    f"asymmetric in {a.units or 'measurement units'}: centre − LCL = {_fmt(lu.center - lcl)}, "
                    f"UCL − centre = {_fmt(ucl - lu.center)}.")
-    st.caption(f"Within sigma: {ch.sigma_method}. Chart: {ch.chart}, rules: {RULE_LABELS.get(ch.rules, ch.rules)}, "
+    st.caption(f"Within sigma: {ch.sigma_method}. Chart: {common.chart_words(ch.chart)}, rules: {RULE_LABELS.get(ch.rules, ch.rules)}, "
                f"phase {ch.phase}; {ch.n_used} of {ch.n_values} values used for the limits.")
 
 
