@@ -87,6 +87,12 @@ def test_demo_loads_and_every_page_shows_the_cores_numbers():
     if not a.in_control:
         assert "capability is not meaningful while the process is unstable" in text
     assert any(a.capability.verdict_text in e.value for e in list(at.error) + list(at.warning) + list(at.success))
+    # demo Ra is one-sided (USL 1.6 µm only): the blank LSL reads "none"
+    assert any("Specification: LSL none, USL 1.6 µm, target none." in c.value for c in at.caption)
+    # "not meaningful while unstable" is said in the verdict; no second box repeats it
+    boxes = [e.value for e in list(at.error) + list(at.warning) + list(at.success) + list(at.info)]
+    if not a.in_control and "not meaningful" in a.capability.verdict_text:
+        assert sum("not meaningful" in b for b in boxes) == 1
 
 
 def test_upload_choose_column_specs_override_and_exclude(rng):
@@ -117,8 +123,11 @@ def test_upload_choose_column_specs_override_and_exclude(rng):
 
     _go(at, "capability")
     assert _metrics(at)["Cpk"] == fmt(a.capability.cpk, 3)
-    tbl = at.dataframe[0].value
+    tbl = at.table[0].value  # a static table: wraps, never cuts a column off on a laptop
     assert tbl.loc[tbl["index"] == "Pp", "estimate"].item() == fmt(a.capability.pp, 3)
+    ppm = at.table[1].value
+    assert list(ppm.columns) == ["parts per million", "below LSL", "above USL", "total"]
+    assert any(f"target {fmt(3.0)} mm" in c.value for c in at.caption)  # target with its units
 
     # exclude a point as an assignable cause -> Phase I re-estimate by the core
     _go(at, "stability")

@@ -90,7 +90,8 @@ def render() -> None:
                 "Shape and stability do not need them.")
         common.next_step("load", "Go to Load")
         return
-    if not a.chart.in_control:
+    if not a.chart.in_control and "not meaningful" not in (cap.verdict_text or ""):
+        # said once above the verdict, unless the verdict itself already says it
         st.warning("Capability is not meaningful while the process is unstable: the control chart shows "
                    "signals of special causes (see 3 · Stability).", icon=":material/warning:")
     words, box = VERDICT_WORDS.get(cap.verdict, (cap.verdict, st.info))
@@ -105,15 +106,17 @@ def render() -> None:
     c4.metric("Expected ppm (overall)", _ppm(cap.ppm_overall))
     c5.metric("Observed ppm", _ppm(cap.ppm_observed))
 
-    left, right = st.columns([1, 1.15], gap="large")
+    # static tables (st.table): they wrap their text, so no column is cut off on a laptop
+    left, right = st.columns([1.2, 1], gap="large")
     with left:
         st.subheader("Indices")
-        st.dataframe(indices_table(cap), hide_index=True, width="stretch")
-        st.caption(f"Specification: LSL {_fmt(cap.lsl)}{u if cap.lsl is not None else ''}, "
-                   f"USL {_fmt(cap.usl)}{u if cap.usl is not None else ''}, target {_fmt(cap.target)}. "
+        st.table(indices_table(cap), hide_index=True)
+        lim = common.fmt_limit
+        st.caption(f"Specification: LSL {lim(cap.lsl, a.units)}, USL {lim(cap.usl, a.units)}, "
+                   f"target {lim(cap.target, a.units)}. "
                    "Intervals: chi-square for Cp/Pp, Bissell (1990) for Cpk/Ppk.")
         st.subheader("Out of specification")
-        st.dataframe(ppm_table(cap, a.percentile), hide_index=True, width="stretch")
+        st.table(ppm_table(cap, a.percentile), hide_index=True)
     with right:
         st.plotly_chart(plots.capability_figure(a), width="stretch", key="cap_hist")
         perc = a.percentile

@@ -19,8 +19,8 @@ from ..caution import CAUTION
 from ..errors import QcnormError
 from . import state
 
-__all__ = ["CAUTION", "caution", "style", "run_page", "guard", "show_error", "fmt", "fmt_ci", "fmt_p",
-           "next_step", "sidebar_summary", "require_analysis", "app_words"]
+__all__ = ["CAUTION", "caution", "style", "run_page", "guard", "show_error", "fmt", "fmt_ci", "fmt_p", "fmt_limit",
+           "next_step", "sidebar_summary", "require_analysis", "app_words", "chart_words", "CHART_WORDS", "ICONS"]
 
 log = logging.getLogger("qcnorm.ui")
 
@@ -158,6 +158,13 @@ def fmt_p(v: Any) -> str:
     if f < 1e-4:
         return "< 0.0001"
     return fmt(f)
+
+
+def fmt_limit(v: Any, units: str | None = None) -> str:
+    """A spec limit with its units, or 'none' when it is blank (never '— µm')."""
+    if v is None or (isinstance(v, float) and math.isnan(v)):
+        return "none"
+    return f"{fmt(v)} {units}" if units else fmt(v)
 
 
 def fmt_ppm(v: Any) -> str:
