@@ -141,6 +141,15 @@ def test_save_review_and_history(db):
     decisions = next(f for f in frames if "review #" in f.columns)
     assert decisions["comment"].iloc[0] == "signals traced to the insert change; parts sorted"
     assert len(at.get("plotly_chart")) == 2  # capability over shifts, signals per shift
+    # demo Ra is one-sided (USL 1.6 µm only, demo_data/line3_spool_specs.csv): a blank limit reads "none"
+    spec = next(c.value for c in at.caption if c.value.startswith("Spec:"))
+    assert "LSL none" in spec and "USL 1.6 µm" in spec and "— µm" not in spec
+    # each bar of the signals chart carries its count, so a shift without signals shows "0"
+    from qcnorm.ui.history_page import violations_over_shifts_figure
+    with HistoryStore(db) as s:
+        recs = list(reversed(s.list_analyses("Ra", limit=200)))
+    bar = violations_over_shifts_figure(recs).data[0]
+    assert list(bar.text) == [str(r.violations or 0) for r in recs]
 
 
 def test_a_changed_decision_is_a_new_review_pointing_at_the_old(db):

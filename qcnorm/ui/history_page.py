@@ -99,15 +99,18 @@ def violations_over_shifts_figure(records: Sequence[AnalysisRecord], *, height: 
     labels = [shift_label(r) for r in records]
     counts = [r.violations if r.violations is not None else 0 for r in records]
     colours = [PALETTE["signal"] if c else PALETTE["excluded"] for c in counts]
+    # the count is written on each bar, so a shift with no signal shows "0" rather than nothing
     fig = go.Figure(go.Bar(x=list(range(len(records))), y=counts, marker_color=colours, name="signals",
-                           width=0.5, customdata=labels,
+                           width=0.5, customdata=labels, text=[str(c) for c in counts],
+                           textposition="outside", cliponaxis=False,
                            hovertemplate="%{customdata}: %{y} signal(s)<extra></extra>"))
     fig.update_xaxes(tickmode="array", tickvals=list(range(len(records))), ticktext=labels,
                      range=[-0.6, max(len(records), 3) - 0.4])
     fig.update_layout(title=dict(text="Signals of special causes per shift", x=0, font=dict(size=15)),
                       height=height, margin=dict(l=60, r=20, t=50, b=70), paper_bgcolor=PALETTE["paper"],
                       plot_bgcolor=PALETTE["paper"], showlegend=False)
-    fig.update_yaxes(title_text="rule violations", rangemode="tozero", gridcolor=PALETTE["grid"])
+    fig.update_yaxes(title_text="rule violations", rangemode="tozero", gridcolor=PALETTE["grid"],
+                     range=[0, max([1, *counts]) * 1.25])
     return fig
 
 
@@ -164,8 +167,8 @@ def render() -> None:
     name = rs.get("rs_history_char")
     c = s.get_characteristic(name)
     if c is not None:
-        u = f" {c.units}" if c.units else ""
-        st.caption(f"Spec: LSL {common.fmt(c.lsl)}{u}, USL {common.fmt(c.usl)}{u}, target {common.fmt(c.target)}; "
+        lim = common.fmt_limit  # a blank limit reads "none", not "— µm"
+        st.caption(f"Spec: LSL {lim(c.lsl, c.units)}, USL {lim(c.usl, c.units)}, target {lim(c.target, c.units)}; "
                    f"required index {common.fmt(c.required_index, 3)} (revision {c.revision}).")
     records = list(reversed(s.list_analyses(name, limit=200)))
     if not records:
