@@ -232,14 +232,16 @@ def _rules_per_point(violations: Any, n: int) -> list[list[str]]:
     return out
 
 
-def signal_labels(triggers: dict[int, list[str]], n: int) -> list[str]:
+def signal_labels(triggers: dict[int, list[str]], n: int, y: Any = None) -> list[str]:
     """Text beside each trigger point (in index order): one label per cluster of triggers.
 
     Run rules fire on neighbouring points again and again during one episode (a shift of
     the mean trips WE2, WE3 and WE4 on a dozen points), and a label on every point stacks
     into an unreadable smudge. Triggers closer than ``max(3, n // 40)`` points form one
-    cluster; its first point carries the rule ids of the whole cluster and the others get
-    no text (each keeps its diamond, its hover text and its row in the signals table).
+    cluster; one point carries the rule ids of the whole cluster (the highest, when the
+    plotted values ``y`` are given, so the text sits above the episode rather than on it;
+    else the first) and the others get no text (each keeps its diamond, its hover text and
+    its row in the signals table).
     """
     idx = sorted(triggers)
     gap = max(3, n // 40)
@@ -252,7 +254,12 @@ def signal_labels(triggers: dict[int, list[str]], n: int) -> list[str]:
         rules: list[str] = []
         for i in idx[start:end + 1]:
             rules += [r for r in triggers[i] if r not in rules]
-        out += [",".join(rules)] + [""] * (end - start)
+        members = idx[start:end + 1]
+        at = 0
+        if y is not None:
+            vals = [float(y[i]) if np.isfinite(y[i]) else -np.inf for i in members]
+            at = int(np.argmax(vals))
+        out += ["" if k != at else ",".join(rules) for k in range(len(members))]
         start = end + 1
     return out
 
@@ -332,7 +339,7 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
             x=xs[idx], y=pts[idx], mode="markers+text", name="signal (run rule)",
             marker=dict(size=11, color=PALETTE["signal"], symbol="diamond",
                         line=dict(color="white", width=1)),
-            text=signal_labels(triggers, n), textposition="top center",
+            text=signal_labels(triggers, n, pts), textposition="top center",
             textfont=dict(size=11, color=PALETTE["signal"]),
             customdata=[text[i] for i in idx], hovertemplate="%{customdata}<extra></extra>",
         ))

@@ -119,6 +119,9 @@ def test_signal_labels_do_not_stack_during_one_episode():
 def test_signal_labels_keep_separate_episodes_apart():
     labels = plots.signal_labels({5: ["WE1"], 6: ["WE2"], 40: ["WE4"]}, 100)
     assert labels == ["WE1,WE2", "", "WE4"]
+    y = np.zeros(100)
+    y[6] = 3.0  # the higher point of the first episode carries its label
+    assert plots.signal_labels({5: ["WE1"], 6: ["WE2"], 40: ["WE4"]}, 100, y) == ["", "WE1,WE2", "WE4"]
 
 
 def test_excluded_points_drawn_grey():
