@@ -234,3 +234,16 @@ def test_tiny_p_values_read_as_less_than():
     assert row["measurements"].item() == "< 0.0001"
     assert row["after transform"].item() == fmt(a.normality_transformed.ad_p_value)
     assert not any("chose this transform yourself" in c.value for c in at.caption)  # auto: no note
+
+
+def test_a_refusal_on_an_analysis_page_offers_the_way_back_to_load():
+    """Too few values (the core's minimum is 8): the Shape page shows the core's message and
+    a button back to Load, where the column or the file is changed."""
+    data = b"Gap (mm)\n" + b"\n".join(f"{v:.2f}".encode() for v in (1.1, 1.3, 0.9, 1.2, 1.0)) + b"\n"
+    at = _go(_upload(_app().run(), "five.csv", data), "shape")
+    assert any("at least 8" in e.value for e in at.error)
+    back = [b for b in at.button if b.label == "Back to 1 · Load"]
+    assert back
+    back[0].click().run()
+    assert not at.exception
+    assert at.session_state["qc_page"] == "load"

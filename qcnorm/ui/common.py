@@ -118,7 +118,13 @@ def run_page(spec: Any) -> None:
                 "file or paste from a spreadsheet.")
         next_step("load", "Go to Load")
         return
-    guard(spec.render_function())
+    try:
+        spec.render_function()()
+    except Exception as exc:  # noqa: BLE001 - the page boundary: never a traceback
+        show_error(exc)
+        if isinstance(exc, QcnormError) and spec.key != "load":
+            # the fix for the user's data (column, sheet, limits) is made on the Load page
+            next_step("load", "Back to 1 · Load")
 
 
 def next_step(page_key: str, label: str) -> None:

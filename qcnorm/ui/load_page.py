@@ -16,7 +16,7 @@ from . import common, compute, state
 KINDS = {"demo": "Demo data", "upload": "Upload a file", "paste": "Paste from a spreadsheet"}
 _LOADED_AS = {"demo": "demo data", "upload": "uploaded", "paste": "pasted"}
 _SUBGROUP_NAMES = ("subgroup", "sub-group", "subgroup no", "group", "sample", "batch", "lot")
-_NO_SUBGROUP = "none — each value is its own point"
+_NO_SUBGROUP = "none — individuals"
 _NO_TIME = "none — file order"
 _TIME_NAMES = ("time", "timestamp", "datetime", "date time", "date", "order", "sequence", "seq")
 
@@ -182,7 +182,7 @@ def _columns_section() -> bool:
     c1.selectbox("Subgroup column", others, key="qc_subgroup", placeholder=_NO_SUBGROUP,
                  format_func=lambda c: _NO_SUBGROUP if c is None else c,
                  help="Rows with the same label form one rational subgroup (X̄ chart). "
-                      "None: individuals and moving-range chart.")
+                      "None: each value is its own point (individuals and moving-range chart).")
     c2.selectbox("Time column", others, key="qc_time", placeholder=_NO_TIME,
                  format_func=lambda c: _NO_TIME if c is None else c,
                  help="Shown beside each point on the charts. Rows are used in file order.")
