@@ -21,7 +21,7 @@ from qcnorm import plots
 from qcnorm.analysis import analyze
 from qcnorm.batch import BatchRow, run_batch
 from qcnorm.data import read_measurements
-from qcnorm.ui.common import fmt, fmt_ppm
+from qcnorm.ui.common import fmt, fmt_p, fmt_ppm
 
 ROOT = Path(__file__).resolve().parents[1]
 APP = str(ROOT / "app.py")
@@ -76,6 +76,12 @@ def test_demo_overview_ranks_six_with_the_batch_numbers_and_opens_one():
         assert shown["transform"] == r.transform
         assert shown["in control"] == ("yes" if r.in_control else "NO")
         assert shown["n"] == f"{r.n:,}"
+        assert shown["AD p before"] == fmt_p(r.ad_p_raw)  # '< 0.0001' for the skewed ones
+    assert any(v == "< 0.0001" for v in tbl["AD p before"])  # demo Ra, Residue… are far from normal
+    # the chosen row's "what to know" is shown in full beside the opener (cut off in the table)
+    first = ref.rows[0]
+    if first.warnings:
+        assert any(c.value == f"**{first.characteristic}:** {first.warnings}" for c in at.caption)
     # worst first: the batch's own ordering key never decreases down the table
     keys = [r.sort_key for r in ref.rows]
     assert keys == sorted(keys)

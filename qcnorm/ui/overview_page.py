@@ -237,8 +237,8 @@ def summary_table(rows: tuple[BatchRow, ...]) -> pd.DataFrame:
             "ppm expected": common.fmt_ppm(r.ppm_overall),
             "ppm observed": common.fmt_ppm(r.ppm_observed),
             "transform": r.transform or "—",
-            "AD p before": _fmt(r.ad_p_raw, 3),
-            "AD p after": _fmt(r.ad_p_transformed, 3),
+            "AD p before": common.fmt_p(r.ad_p_raw),
+            "AD p after": common.fmt_p(r.ad_p_transformed),
             "signals": "—" if r.violations is None else str(r.violations),
             "what to know": r.error or r.warnings or "",
         })
@@ -287,6 +287,10 @@ def _open_section(res: BatchResult) -> None:
                  format_func=lambda n: f"{names.index(n) + 1} · {n} — {badge[n]}")
     c2.button("Open in Shape → Stability → Capability", key="qc_ov_open", type="primary",
               on_click=lambda: open_characteristic(st.session_state["qc_ov_pick"], res.rows))
+    # the "what to know" text of the chosen row, in full (in the wide table it is cut off)
+    row = next((r for r in res.rows if r.characteristic == st.session_state.get("qc_ov_pick")), None)
+    if row is not None and (row.error or row.warnings):
+        st.caption(f"**{row.characteristic}:** {row.error or row.warnings}")
     if st.session_state.get("qc_ov_open_error"):
         st.error(st.session_state["qc_ov_open_error"])
 
