@@ -121,6 +121,10 @@ def test_save_review_and_history(db):
     for question in ("In statistical control?", "Transform adequate?", "Enough data?"):
         assert question in md
     assert "re-checked now" in _texts(at.caption)  # store.verify on the opened record
+    ev = next(t.value for t in at.table if "figure" in t.value.columns)  # static: wraps, never cut off
+    chart_row = ev.loc[ev["figure"] == "Chart", "value"].item()
+    assert chart_row.startswith("subgroup mean and range (X̄–R)")  # words, not the id 'xbar_r'
+    assert ev.loc[ev["figure"] == "Spec limits (LSL / USL)", "value"].item() == "none / 1.6 µm"
 
     _review(at, "Sam Reyes", "approve", "signals traced to the insert change; parts sorted")
     assert not at.error, _texts(at.error)

@@ -90,7 +90,8 @@ def evidence_table(d: dict[str, Any]) -> pd.DataFrame:
         ("Centre line", _fmt(units.get("center")) + u),
         ("Control limits (LCL / UCL)", f"{_fmt(units.get('lcl'))} / {_fmt(units.get('ucl'))}{u}"),
         ("Rule violations", str(len(ctl.get("violations") or []))),
-        ("Spec limits (LSL / USL)", f"{_fmt(cap.get('lsl'))} / {_fmt(cap.get('usl'))}{u}"),
+        ("Spec limits (LSL / USL)", f"{common.fmt_limit(cap.get('lsl'), d.get('units'))} / "
+                                    f"{common.fmt_limit(cap.get('usl'), d.get('units'))}"),
         ("Cpk (95 % interval)", f"{_fmt(cap.get('cpk'), 3)}  ({_ci(cap.get('cpk_ci'))})"),
         ("Ppk (95 % interval)", f"{_fmt(cap.get('ppk'), 3)}  ({_ci(cap.get('ppk_ci'))})"),
         ("Expected ppm out of spec (overall)", common.fmt_ppm(cap.get("ppm_overall"))),
@@ -287,7 +288,8 @@ def render() -> None:
             st.caption(f"⚑ {w}")
     with right:
         ev = evidence_table(r.analysis)
-        st.dataframe(ev, hide_index=True, width="stretch", height=38 + 35 * len(ev))
+        # a static table wraps long values (chart type, intervals) instead of cutting them off
+        st.table(ev, hide_index=True)
     common.guard(_chart, s, r)
     common.guard(_baseline_and_earlier, s, r)
     common.guard(_trail, s, r)
