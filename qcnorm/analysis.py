@@ -202,7 +202,13 @@ class Analysis(Result):
                     "center": to_jsonable(_at(disp.center, typical)),
                     "ucl": to_jsonable(_at(disp.ucl, typical)),
                     "lcl": to_jsonable(_at(disp.lcl, typical)),
+                    "violations": [
+                        {"rule": v.rule, "index": int(v.index), "description": v.description,
+                         "points": [int(p) for p in v.points]}
+                        for v in disp.violations
+                    ],
                 },
+                # every signal, location and dispersion chart alike (each tagged with its chart)
                 "violations": [
                     {"rule": v.rule, "index": int(v.index), "description": v.description,
                      "points": [int(p) for p in v.points],
@@ -425,8 +431,8 @@ def analyze(
     if baseline is not None:
         tr = baseline.make_transform()
         reason = (
-            f"Frozen baseline transform ({tr.describe()}), applied without refitting "
-            "so this data is judged against the same scale as the baseline (Phase II)."
+            f"Frozen baseline transform, applied without refitting so this data is judged on the same "
+            f"scale as the baseline (Phase II): {tr.describe()}"
         )
         phase = "II"
     else:

@@ -132,7 +132,11 @@ def _item_in_control(d: Mapping[str, Any]) -> ChecklistItem:
     )
     rules = _RULE_NAMES.get(str(c.get("rules")), str(c.get("rules") or "run"))
     rule = f"no {rules} rule violation on the control chart"
-    viol = list(c.get("violations") or []) + list((c.get("dispersion") or {}).get("violations") or [])
+    viol = list(c.get("violations") or [])
+    seen = {(str(v.get("rule")), int(v.get("index", -1))) for v in viol}
+    # dicts that list dispersion signals only under control.dispersion: add them once
+    viol += [v for v in (c.get("dispersion") or {}).get("violations") or []
+             if (str(v.get("rule")), int(v.get("index", -1))) not in seen]
     in_control = c.get("in_control")
     if in_control is None:
         return ChecklistItem("in_control", name, None, "No control chart in this analysis.", rule)

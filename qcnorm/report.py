@@ -432,7 +432,9 @@ class _View:
         disp = getattr(ch, "dispersion", None)
         stat = str(_get(disp, "statistic", default="moving_range"))
         stat_label = {"moving_range": "moving range", "range": "range", "stdev": "standard deviation"}.get(stat, stat)
-        sig_pts = sorted({int(p) for v in c.get("violations") or [] for p in (v.get("points") or [v.get("index")])})
+        sig_pts = sorted({int(p) for v in c.get("violations") or []
+                          if v.get("chart", "location") == "location" and v.get("rule") != "DISP"
+                          for p in (v.get("points") or [v.get("index")])})
         dviol = (c.get("dispersion") or {}).get("violations") or []
         disp_sig = sorted({int(v.get("index", -1)) for v in dviol})
         exc_pts = sorted({int(e.get("index", e.get("point", -1))) for e in c.get("excluded_points") or []

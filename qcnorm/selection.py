@@ -283,6 +283,14 @@ def choose_transform(
     fits = [c if not c.ok else _with_delta(c, c.aic - best_aic) for c in fits]
     ok = [c for c in fits if c.ok]
     chosen, why = _apply_rule(ok)
+    if single:  # the user asked for this one transform: say so rather than "chosen"
+        c = ok[0]
+        asked = "No transform was requested" if c.family == "none" else f"The {_WORDS[c.family]} was requested"
+        why = (f"{asked}, so it is used as asked (AIC {c.aic:.1f}). "
+               f"After it, Anderson–Darling {_fmt_p(c.ad_p_value)} (A² = {c.ad_statistic:.3f}) and "
+               f"skewness {c.skewness_after:.2f}"
+               + ("; the data still do not look normal on this scale." if c.ad_p_value < AD_ALPHA else ".")
+               + f" {c.description} Use 'auto' to compare it with the other transforms.")
 
     sl = None
     notes: list[str] = list(chosen.transform.notes_) if chosen.transform is not None else []

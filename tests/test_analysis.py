@@ -225,3 +225,20 @@ def test_bad_options_are_refused_in_plain_words():
     with pytest.raises(QcnormError, match=r"'a' is not a point number.*counted from 0"):
         analyze(x, exclude=["a"])
     assert analyze(x, usl=3.0, confidence=0.9).capability.confidence == 0.9
+
+
+def test_checklist_counts_each_signal_once():
+    """The JSON lists every signal under control.violations (tagged by chart) and the
+    dispersion ones again under control.dispersion.violations; the checklist must count
+    each once, like the chart (regression)."""
+    from qcnorm.checklist import review_checklist
+
+    rng = np.random.default_rng(21)
+    x = rng.normal(10, 1, 200)
+    x[50:55] = [10, 14, 6, 14, 6]  # wild ranges: moving-range signals
+    a = analyze(x, transform="none", chart="individuals")
+    total = len(a.chart.violations) + len(a.chart.dispersion.violations)
+    assert len(a.chart.dispersion.violations) > 0
+    d = a.to_dict()["control"]
+    assert len(d["violations"]) == total
+    assert review_checklist(a)[0].detail.startswith(f"{total} signal")
