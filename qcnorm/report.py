@@ -23,6 +23,10 @@ not leak in) and fpdf2's document id derives from the content.
 Layout: A4 or US Letter, 15 mm margins, automatic page breaks; long text wraps
 (``multi_cell``), tables break across pages and repeat their header row, figures are
 scaled to the printable width and moved to the next page whole when they do not fit.
+Headings keep with what follows: a section heading or sub-heading is drawn only with
+the block after it, and both go to the next page when the heading and the block's first
+part (a whole figure or box, a table's header row and first two rows, two lines of text)
+do not fit together.
 """
 
 from __future__ import annotations
@@ -511,6 +515,8 @@ class _Writer:
         pdf.add_page()
         self.pdf = pdf
         self.section_no = 0
+        # headings waiting for the block they belong to: (height in mm, drawing function)
+        self._pending: list[tuple[float, Any]] = []
 
     @property
     def epw(self) -> float:
@@ -520,8 +526,38 @@ class _Writer:
         return float(self.pdf.page_break_trigger - self.pdf.get_y())
 
     def ensure(self, height: float) -> None:
-        if self._space_left() < height:
+        """Break the page first when less than ``height`` mm are left (never on a fresh page)."""
+        if self._space_left() < height and self.pdf.get_y() > self.pdf.t_margin + 0.01:
             self.pdf.add_page()
+
+    def _lines(self, text: str, width: float, size: float, bold: bool = False) -> int:
+        """How many lines ``text`` takes in a box ``width`` mm wide (fpdf2's own wrapping)."""
+        p = self.pdf
+        p.set_font("DejaVu", "B" if bold else "", size)
+        lines = p.multi_cell(max(width, 1.0), size * 0.5, text, dry_run=True, output="LINES")
+        p.set_font("DejaVu", "", 9)
+        return max(1, len(lines))
+
+    def _row_height(self, cells: Sequence[str], widths_mm: Sequence[float], size: float,
+                    bold: bool = False) -> float:
+        """Height of one table row as :meth:`table` draws it (line height size·0.52, padding
+        0.8 mm above and below, 1.2 mm left and right); a short row's last cell spans the
+        remaining columns."""
+        lh = size * 0.52
+        n = 1
+        for j, text in enumerate(cells):
+            w = sum(widths_mm[j:]) if j == len(cells) - 1 else widths_mm[j]
+            n = max(n, self._lines(str(text), w - 2.4, size, bold))
+        return n * lh + 1.6
+
+    def _lead(self, need: float) -> None:
+        """Start a block whose first part needs ``need`` mm: the headings waiting for it
+        are drawn together with it, after a page break when heading and first part do not
+        both fit (a heading is never left alone at the foot of a page)."""
+        pending, self._pending = self._pending, []
+        self.ensure(sum(h for h, _ in pending) + need)
+        for _h, draw in pending:
+            draw()
 
     def title(self, text: str, sub: str) -> None:
         p = self.pdf
@@ -534,9 +570,13 @@ class _Writer:
         p.ln(2)
 
     def section(self, key: str) -> None:
-        self.ensure(32)
+        """A numbered section heading, kept on the page of the block that follows it."""
         self.section_no += 1
         text = f"{self.section_no}. {SECTION_TITLES[key]}"
+        height = 3 + 7 * self._lines(text, self.epw, 12, bold=True) + 1.5
+        self._pending.append((height, lambda: self._draw_section(text)))
+
+    def _draw_section(self, text: str) -> None:
         p = self.pdf
         p.ln(3)
         p.start_section(text)
@@ -548,7 +588,11 @@ class _Writer:
         p.set_font("DejaVu", "", 9)
 
     def subheading(self, text: str) -> None:
-        self.ensure(18)
+        """A sub-heading, kept on the page of the block that follows it."""
+        height = 1 + 5 * self._lines(text, self.epw, 9.5, bold=True)
+        self._pending.append((height, lambda: self._draw_subheading(text)))
+
+    def _draw_subheading(self, text: str) -> None:
         p = self.pdf
         p.ln(1)
         p.set_font("DejaVu", "B", 9.5)
@@ -556,6 +600,9 @@ class _Writer:
         p.set_font("DejaVu", "", 9)
 
     def para(self, text: str, size: float = 9, bold: bool = False, color: int = 0) -> None:
+        lines = self._lines(text, self.epw, size, bold)
+        # a paragraph of up to three lines stays whole; a longer one keeps two lines together
+        self._lead((lines if lines <= 3 else 2) * size * 0.5 + 1)
         p = self.pdf
         p.set_font("DejaVu", "B" if bold else "", size)
         p.set_text_color(color)
@@ -566,8 +613,13 @@ class _Writer:
 
     def bullets(self, items: Sequence[str], size: float = 8.5) -> None:
         p = self.pdf
-        p.set_font("DejaVu", "", size)
-        for it in items:
+        for k, it in enumerate(items):
+            lines = self._lines(it, self.epw - 4, size)
+            if k == 0:
+                self._lead(lines * size * 0.5 + 1)
+            else:
+                self.ensure(min(lines, 2) * size * 0.5)
+            p.set_font("DejaVu", "", size)
             x0 = p.l_margin
             p.set_x(x0)
             p.cell(4, size * 0.5, "•")
@@ -577,6 +629,7 @@ class _Writer:
         p.ln(1)
 
     def boxed(self, text: str, fill: tuple[int, int, int] = (255, 246, 214)) -> None:
+        self._lead(self._lines(text, self.epw - 4, 8.5, bold=True) * 4.6 + 4 + 2)  # never split a box
         p = self.pdf
         p.set_font("DejaVu", "B", 8.5)
         p.set_fill_color(*fill)
@@ -590,11 +643,19 @@ class _Writer:
 
     def table(self, header: Sequence[str], rows: Sequence[Sequence[str]], widths: Sequence[float],
               align: Sequence[str] | None = None, size: float = 8) -> None:
-        """A table that breaks across pages and repeats its header row."""
+        """A table that breaks across pages and repeats its header row.
+
+        The header row never stands alone: it starts on a page with room for it and the
+        first two rows (all rows when fewer). A row shorter than the header has its last
+        cell span the remaining columns (a note in place of numbers).
+        """
         from fpdf.fonts import FontFace
 
         p = self.pdf
-        self.ensure(4.5 * min(len(rows) + 1, 4) + 4)
+        wmm = [self.epw * w / sum(widths) for w in widths]
+        need = self._row_height(header, wmm, size, bold=True)
+        need += sum(self._row_height(r, wmm, size) for r in rows[:2])
+        self._lead(need + 0.5)
         p.set_font("DejaVu", "", size)
         al = tuple(align) if align else tuple("LEFT" for _ in header)
         with p.table(
@@ -608,8 +669,9 @@ class _Writer:
                 r.cell(h)
             for row in rows:
                 r = t.row()
-                for c in row:
-                    r.cell(c)
+                for j, c in enumerate(row):
+                    last = j == len(row) - 1
+                    r.cell(c, colspan=len(header) - j if last and len(row) < len(header) else 1)
         p.set_font("DejaVu", "", 9)
         p.ln(2)
 
@@ -619,6 +681,9 @@ class _Writer:
         from fpdf.fonts import FontFace
 
         p = self.pdf
+        wmm = [self.epw * w / 100 for w in (16, 34, 16, 34)]
+        k0, v0 = pairs[0] if pairs else ("", "")
+        self._lead(self._row_height((k0, v0) if len(v0) > 30 else (k0, v0, "", ""), wmm, size, bold=True) + 0.5)
         p.set_font("DejaVu", "", size)
         bold = FontFace(emphasis="BOLD", fill_color=(240, 240, 240))
         with p.table(col_widths=(16, 34, 16, 34), width=self.epw, text_align="LEFT",
@@ -653,12 +718,13 @@ class _Writer:
         p.ln(2)
 
     def figure(self, png: bytes, height_mm: float, alt: str) -> None:
-        self.ensure(height_mm + 2)
+        self._lead(height_mm + 2)  # a figure moves to the next page whole, its heading with it
         p = self.pdf
         p.image(io.BytesIO(png), x=p.l_margin, w=self.epw, h=height_mm, alt_text=alt)
         p.ln(2)
 
     def output(self) -> bytes:
+        self._lead(0)
         return bytes(self.pdf.output())
 
 

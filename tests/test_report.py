@@ -205,6 +205,111 @@ def test_font_falls_back_to_matplotlibs_dejavu(monkeypatch, tmp_path):
     assert Path(reg).name == "DejaVuSans.ttf" and Path(bold).name == "DejaVuSans-Bold.ttf"
 
 
+# ----------------------------------------------------------------------------- page layout
+@pytest.fixture(scope="module")
+def residue_analysis():
+    """900 Residue values, no spec limits, phase I only (no baseline): the case where the
+    control-chart heading was once left alone at the foot of page 3."""
+    m = read_measurements(DEMO / "line3_spool_wide.csv", column="Residue")
+    return analyze(m)
+
+
+_SUBHEADINGS = ("Exclusions", "Notes on these data", "Candidates compared", "Rule violations (",
+                "Parts per million", "Percentile cross-check", "References")
+
+
+def _page_lines(pdf: bytes) -> list[list[str]]:
+    """What each page draws, in content-stream order (the order fpdf2 lays things out):
+    text lines, and "<figure>" where an image is drawn; the footer (drawn last) left off."""
+    import io
+
+    pages = []
+    for pg in PdfReader(io.BytesIO(pdf)).pages:
+        events: list[str] = []
+
+        def on_op(op, args, cm, tm, events=events):
+            if op == b"Do":  # an image XObject is painted
+                events.append("<figure>")
+
+        def on_text(text, cm, tm, font, size, events=events):
+            events.extend(ln.strip() for ln in text.splitlines() if ln.strip())
+
+        pg.extract_text(visitor_operand_before=on_op, visitor_text=on_text)
+        assert events and events[-1].startswith("qcnorm ") and " page " in events[-1]
+        pages.append(events[:-1])
+    return pages
+
+
+def test_no_heading_is_left_alone_at_the_foot_of_a_page(pdf_a4, pdf_letter, residue_analysis):
+    headings = [f"{i}. {t}" for i, t in enumerate(SECTION_TITLES.values(), start=1)]
+    for pdf in (pdf_a4, pdf_letter, build_pdf(residue_analysis, page="A4"),
+                build_pdf(residue_analysis, page="Letter")):
+        pages = _page_lines(pdf)
+        for k, lines in enumerate(pages[:-1], start=1):
+            last = lines[-1]
+            assert last not in headings, f"page {k} ends with the heading {last!r}"
+            assert not last.startswith(_SUBHEADINGS), f"page {k} ends with the sub-heading {last!r}"
+        # every section heading is printed once, in order
+        found = [ln for lines in pages for ln in lines if ln in headings]
+        assert found == headings
+
+
+def _writer(page: str = "A4"):
+    import datetime as dt
+
+    from qcnorm.report import _Style, _Writer
+
+    with _Style():
+        return _Writer(page, dt.datetime(2000, 1, 1, tzinfo=dt.timezone.utc), "t", "qcnorm test footer")
+
+
+def _fill_until(w, space_mm: float) -> None:
+    """Paragraphs until about ``space_mm`` of the page is left (the writer's own measure)."""
+    while w._space_left() > space_mm + 6:
+        w.para("filler line")
+    while w._space_left() > space_mm:
+        w.pdf.ln(0.5)
+
+
+def test_a_heading_moves_to_the_next_page_with_its_figure():
+    """A section heading with room for itself but not for its figure goes to the next page."""
+    w = _writer()
+    _fill_until(w, 40)  # room for the heading (≈ 12 mm) and more, not for a 105 mm figure
+    fig = _tiny_png()
+    w.section("chart")
+    w.figure(fig, 105, "a figure")
+    pages = _page_lines(w.output())
+    assert len(pages) == 2
+    assert pages[0][-1] == "filler line"
+    assert pages[1] == ["1. " + SECTION_TITLES["chart"], "<figure>"]
+
+
+def test_a_table_header_row_never_stands_alone():
+    """A sub-heading, the header row and the first rows start together on a page, also
+    when the rows are tall (long text wraps in a narrow column)."""
+    w = _writer("Letter")
+    _fill_until(w, 24)  # room for a sub-heading and a header row, not for two tall rows under them
+    long = "a point beyond a limit, " * 6
+    w.subheading("Rule violations (3)")
+    w.table(("Point", "Rule", "What it means"), [("1", "WE1", long)] * 3, widths=(10, 22, 68))
+    pages = _page_lines(w.output())
+    assert len(pages) == 2 and pages[0][-1] == "filler line"
+    assert pages[1][:5] == ["Rule violations (3)", "Point", "Rule", "What it means", "1"]
+
+
+def _tiny_png() -> bytes:
+    import io
+
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(1, 1))
+    FigureCanvasAgg(fig)
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=20)
+    return buf.getvalue()
+
+
 # ----------------------------------------------------------------------------- rendering
 def _render(pdf: bytes, name: str, folder: Path) -> list[Path]:
     if shutil.which("pdftoppm") is None:
