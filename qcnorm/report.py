@@ -59,6 +59,7 @@ __all__ = [
     "CANDIDATE_COLUMNS",
     "CHART_NAMES",
     "RULE_NAMES",
+    "COLOUR_ROLES",
 ]
 
 #: Page formats accepted by ``page=``, with their size in mm (portrait).
@@ -100,20 +101,34 @@ _MATPLOTLIB_RC = {
     "ytick.labelsize": 7,
     "legend.fontsize": 6.5,
     "axes.grid": True,
-    "grid.alpha": 0.3,
     "svg.hashsalt": "qcnorm",
     "path.simplify": True,
 }
 
-_COL = {
-    "raw": "#4c72b0",
-    "transformed": "#55a868",
-    "limit": "#c44e52",
-    "spec": "#8172b2",
-    "center": "#333333",
-    "signal": "#d62728",
-    "excluded": "#999999",
+#: What each colour of the figures shows -> its key in the app's palette
+#: (:data:`qcnorm.plots.PALETTE`, the one source of the house colours).
+COLOUR_ROLES: dict[str, str] = {
+    "raw": "ink",              # measurements
+    "transformed": "teal",     # transformed values, the dispersion chart
+    "spec": "spec",            # LSL / USL: solid
+    "target": "target",        # target: dash-dot
+    "limit": "control",        # UCL / LCL: dashed
+    "center": "center",        # centre line, fitted normal line: dotted
+    "signal": "signal",        # run-rule signals, points outside the band
+    "excluded": "excluded",    # points excluded as assignable causes
+    "grid": "grid",
 }
+
+#: Line style of each kind of line, as in the app's charts.
+_LINE = {"spec": "-", "target": "-.", "limit": "--", "center": ":"}
+
+
+def _colours() -> dict[str, str]:
+    """The figure colours, taken from the app's palette (imported when drawing, so that
+    importing this module does not import plotly)."""
+    from .plots import PALETTE
+
+    return {role: PALETTE[key] for role, key in COLOUR_ROLES.items()}
 
 
 # ----------------------------------------------------------------------------- metadata
@@ -249,6 +264,7 @@ class _Style:
         try:
             matplotlib.style.use("default")
             matplotlib.rcParams.update(_MATPLOTLIB_RC)
+            matplotlib.rcParams.update({"grid.color": _colours()["grid"], "grid.alpha": 1.0})
         except BaseException:
             self.__exit__(None, None, None)
             raise
@@ -260,39 +276,45 @@ class _Style:
             _STYLE_LOCK.release()
 
 
-def _vline(ax: Any, x: Any, label: str, color: str, style: str = "--") -> None:
-    if x is None:
+def _vline(ax: Any, x: Any, label: str, color: str, style: str) -> None:
+    if x is None or not math.isfinite(float(x)):
         return
-    ax.axvline(float(x), color=color, linestyle=style, linewidth=1.0, label=label)
+    ax.axvline(float(x), color=color, linestyle=style, linewidth=1.1, label=label)
 
 
 def _hist_panel(ax: Any, x: np.ndarray, title: str, xlabel: str, color: str,
-                lsl: Any, usl: Any) -> None:
+                limits: Mapping[str, Any], col: Mapping[str, str]) -> None:
     from .plots import histogram_bins
 
     b = histogram_bins(x)
     edges, counts = b.edges, b.counts
-    ax.bar(edges[:-1], counts, width=np.diff(edges), align="edge", color=color,
+    ax.bar(edges[:-1], counts, width=np.diff(edges), align="edge", color=color, alpha=0.85,
            edgecolor="white", linewidth=0.4)
-    _vline(ax, lsl, "LSL", _COL["spec"])
-    _vline(ax, usl, "USL", _COL["spec"])
+    drawn = False
+    for label, role in (("LSL", "spec"), ("USL", "spec"), ("target", "target")):
+        if limits.get(label) is not None:
+            _vline(ax, limits[label], label, col[role], _LINE[role])
+            drawn = True
     ax.set_title(f"{title} (n = {int(counts.sum())})")
     ax.set_xlabel(xlabel)
     ax.set_ylabel("count")
-    if lsl is not None or usl is not None:
+    if drawn:
         ax.legend(loc="upper right", frameon=False)
 
 
 def _fig_histograms(view: "_View", width_mm: float) -> bytes:
+    col = _colours()
     fig, axes = _new_figure(width_mm, 62, 1, 2)
-    _hist_panel(axes[0, 0], view.values, "Measurements", view.units_label, _COL["raw"],
-                view.lsl, view.usl)
+    _hist_panel(axes[0, 0], view.values, "Measurements", view.units_label, col["raw"],
+                {"LSL": view.lsl, "USL": view.usl, "target": view.target}, col)
     _hist_panel(axes[0, 1], view.transformed, f"Transformed ({view.transform_name})",
-                "transformed value", _COL["transformed"], view.lsl_t, view.usl_t)
+                "transformed value", col["transformed"],
+                {"LSL": view.lsl_t, "USL": view.usl_t, "target": view.target_t}, col)
     return _png(fig)
 
 
-def _prob_panel(ax: Any, pp: Mapping[str, Any] | None, title: str, ylabel: str, color: str) -> None:
+def _prob_panel(ax: Any, pp: Mapping[str, Any] | None, title: str, ylabel: str, color: str,
+                col: Mapping[str, str]) -> None:
     ax.set_title(title)
     ax.set_xlabel("normal quantile")
     ax.set_ylabel(ylabel)
@@ -300,56 +322,86 @@ def _prob_panel(ax: Any, pp: Mapping[str, Any] | None, title: str, ylabel: str, 
         ax.text(0.5, 0.5, "no probability-plot data", transform=ax.transAxes, ha="center", va="center")
         return
     q, y = pp["theoretical"], pp["ordered"]
-    ax.fill_between(q, pp["lower"], pp["upper"], color=color, alpha=0.15, linewidth=0,
-                    label=pp["band_label"])
+    lo, hi = pp["lower"], pp["upper"]
+    # the band in the transformed-scale colour, as in the app
+    ax.fill_between(q, lo, hi, color=col["transformed"], alpha=0.14, linewidth=0, label=pp["band_label"])
+    ax.plot(q, lo, color=col["transformed"], linewidth=0.6)
+    ax.plot(q, hi, color=col["transformed"], linewidth=0.6)
     ends = np.array([q[0], q[-1]])
-    ax.plot(ends, pp["intercept"] + pp["slope"] * ends, color=_COL["center"], linewidth=1.0,
-            label="fitted normal")
-    ax.plot(q, y, "o", markersize=2.2, color=color, label="ordered values")
+    ax.plot(ends, pp["intercept"] + pp["slope"] * ends, color=col["center"], linestyle=_LINE["center"],
+            linewidth=1.2, label="fitted normal")
+    outside = (y < lo) | (y > hi)
+    ms = 2.2 if y.size > 500 else 3.0
+    ax.plot(q[~outside], y[~outside], "o", markersize=ms, color=color, label="ordered values")
+    if outside.any():
+        ax.plot(q[outside], y[outside], "x", markersize=ms + 2, markeredgewidth=1.1, color=col["signal"],
+                label="outside the band")
     ax.legend(loc="upper left", frameon=False)
 
 
 def _fig_probability(view: "_View", width_mm: float) -> bytes:
+    col = _colours()
     fig, axes = _new_figure(width_mm, 62, 1, 2)
     _prob_panel(axes[0, 0], view.prob_raw, "Normal probability plot: measurements",
-                view.units_label, _COL["raw"])
+                view.units_label, col["raw"], col)
     _prob_panel(axes[0, 1], view.prob_transformed,
                 f"Normal probability plot: transformed ({view.transform_name})",
-                "transformed value", _COL["transformed"])
+                "transformed value", col["transformed"], col)
     return _png(fig)
 
 
-def _limit_line(ax: Any, x: np.ndarray, lim: Any, label: str, color: str, style: str) -> None:
+def _limit_line(ax: Any, x: np.ndarray, lim: Any, label: str, color: str, style: str,
+                skip_zero: bool = False) -> None:
+    """A limit drawn across the chart (a step line when it varies by point); absent or
+    non-finite means "no limit on that side". ``skip_zero``: a zero lower limit on a
+    spread chart is not a limit (the app leaves it out too)."""
     if lim is None:
         return
     arr = np.broadcast_to(np.asarray(lim, dtype=float), x.shape)
-    if not np.any(np.isfinite(arr)):
+    if not np.any(np.isfinite(arr)) or (skip_zero and np.nanmax(arr) <= 0):
         return
     ax.step(x, arr, where="mid", color=color, linestyle=style, linewidth=1.0, label=label)
 
 
 def _fig_chart(view: "_View", width_mm: float) -> bytes:
+    """Control chart in units and its dispersion chart, marked as in the app: signal
+    (the point where a run rule triggers) a filled red diamond with the rule ids, the other
+    points of the pattern a red ring, excluded points a large grey ring."""
+    from .plots import signal_labels
+
+    col = _colours()
     cs = view.chart_series
     fig, axes = _new_figure(width_mm, 105, 2, 1, sharex=True, height_ratios=[3, 2])
     ax, ax2 = axes[0, 0], axes[1, 0]
-    x = np.arange(1, cs["points"].size + 1)
+    y = cs["points"]
+    x = np.arange(1, y.size + 1)
     dense = x.size > 150
     ms, lw = (1.2, 0.35) if dense else (2.5, 0.7)
-    ax.plot(x, cs["points"], "-o", markersize=ms, linewidth=lw, color=_COL["raw"], label=cs["label"])
-    _limit_line(ax, x, cs["center"], "center", _COL["center"], "-")
-    _limit_line(ax, x, cs["ucl"], "UCL", _COL["limit"], "--")
-    _limit_line(ax, x, cs["lcl"], "LCL", _COL["limit"], "--")
-    for s in ("lsl", "usl"):
-        v = getattr(view, s)
+    big = 4.5 if dense else 6.5
+    ax.plot(x, y, "-o", markersize=ms, linewidth=lw, color=col["raw"], label=cs["label"])
+    _limit_line(ax, x, cs["center"], "centre", col["center"], _LINE["center"])
+    _limit_line(ax, x, cs["ucl"], "UCL", col["limit"], _LINE["limit"])
+    _limit_line(ax, x, cs["lcl"], "LCL", col["limit"], _LINE["limit"])
+    for name, v, role in (("LSL", view.lsl, "spec"), ("USL", view.usl, "spec"), ("target", view.target, "target")):
         if v is not None:
-            ax.axhline(float(v), color=_COL["spec"], linestyle=":", linewidth=1.0, label=s.upper())
-    sig = [i for i in cs["signal_points"] if 0 <= i < x.size]
-    if sig:
-        ax.plot(x[sig], cs["points"][sig], "o", markersize=5 if dense else 6, markerfacecolor="none",
-                markeredgecolor=_COL["signal"], markeredgewidth=1.2, label="rule violation")
+            ax.axhline(float(v), color=col[role], linestyle=_LINE[role], linewidth=1.0, label=name)
     exc = [i for i in cs["excluded_points"] if 0 <= i < x.size]
     if exc:
-        ax.plot(x[exc], cs["points"][exc], "x", markersize=6, color=_COL["excluded"], label="excluded")
+        ax.plot(x[exc], y[exc], "o", markersize=big + 1, markerfacecolor="none", markeredgewidth=1.4,
+                markeredgecolor=col["excluded"], label="excluded (assignable cause)")
+    pat = [i for i in cs["pattern_points"] if 0 <= i < x.size]
+    if pat:
+        ax.plot(x[pat], y[pat], "o", markersize=big, markerfacecolor="none", markeredgewidth=1.1,
+                markeredgecolor=col["signal"], label="part of a signal pattern")
+    trig = {i: r for i, r in cs["triggers"].items() if 0 <= i < x.size}
+    if trig:
+        idx = sorted(trig)
+        ax.plot(x[idx], y[idx], "D", markersize=big - 1, color=col["signal"], markeredgecolor="white",
+                markeredgewidth=0.5, label="signal (run rule)")
+        for i, text in zip(idx, signal_labels(trig, x.size, y)):
+            if text:
+                ax.annotate(text, (x[i], y[i]), xytext=(0, 4), textcoords="offset points", ha="center",
+                            va="bottom", fontsize=5.5, color=col["signal"])
     ax.set_title(cs["title"], loc="left")
     ax.set_ylabel(view.units_label)
     ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False)
@@ -358,14 +410,14 @@ def _fig_chart(view: "_View", width_mm: float) -> bytes:
     if d["values"] is not None:
         dv = np.asarray(d["values"], dtype=float)
         xd = np.arange(1, dv.size + 1)
-        ax2.plot(xd, dv, "-o", markersize=ms, linewidth=lw, color=_COL["transformed"], label=d["label"])
-        _limit_line(ax2, xd, d["center"], "center", _COL["center"], "-")
-        _limit_line(ax2, xd, d["ucl"], "UCL", _COL["limit"], "--")
-        _limit_line(ax2, xd, d["lcl"], "LCL", _COL["limit"], "--")
+        ax2.plot(xd, dv, "-o", markersize=ms, linewidth=lw, color=col["transformed"], label=d["label"])
+        _limit_line(ax2, xd, d["center"], "centre", col["center"], _LINE["center"])
+        _limit_line(ax2, xd, d["ucl"], "UCL", col["limit"], _LINE["limit"])
+        _limit_line(ax2, xd, d["lcl"], "LCL", col["limit"], _LINE["limit"], skip_zero=True)
         dsig = [i for i in d["signal_points"] if 0 <= i < xd.size]
         if dsig:
-            ax2.plot(xd[dsig], dv[dsig], "o", markersize=5 if dense else 6, markerfacecolor="none",
-                     markeredgecolor=_COL["signal"], markeredgewidth=1.2, label="beyond limit")
+            ax2.plot(xd[dsig], dv[dsig], "D", markersize=big - 1, color=col["signal"], markeredgecolor="white",
+                     markeredgewidth=0.5, label="beyond limit")
         ax2.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False)
     else:
         ax2.text(0.5, 0.5, "no dispersion chart data", transform=ax2.transAxes, ha="center", va="center")
@@ -404,6 +456,7 @@ class _View:
         self.lsl, self.usl, self.target = s.get("lsl"), s.get("usl"), s.get("target")
         cap = d.get("capability") or {}
         self.lsl_t, self.usl_t = cap.get("lsl_transformed"), cap.get("usl_transformed")
+        self.target_t = cap.get("target_transformed")
         self.transform_name = (d.get("transform") or {}).get("name") or "none"
         self.prob_raw = self._prob(self.values)
         self.prob_transformed = self._prob(self.transformed)
@@ -436,13 +489,24 @@ class _View:
         disp = getattr(ch, "dispersion", None)
         stat = str(_get(disp, "statistic", default="moving_range"))
         stat_label = {"moving_range": "moving range", "range": "range", "stdev": "standard deviation"}.get(stat, stat)
-        sig_pts = sorted({int(p) for v in c.get("violations") or []
-                          if v.get("chart", "location") == "location" and v.get("rule") != "DISP"
-                          for p in (v.get("points") or [v.get("index")])})
-        dviol = (c.get("dispersion") or {}).get("violations") or []
-        disp_sig = sorted({int(v.get("index", -1)) for v in dviol})
         exc_pts = sorted({int(e.get("index", e.get("point", -1))) for e in c.get("excluded_points") or []
                           if isinstance(e, Mapping)})
+        # as in the app: the point where a rule triggers (rule ids beside it) and the other
+        # points of its pattern; excluded points are shown as excluded only
+        triggers: dict[int, list[str]] = {}
+        pattern: set[int] = set()
+        for v in c.get("violations") or []:
+            if v.get("chart", "location") != "location" or v.get("rule") == "DISP":
+                continue
+            i = int(v.get("index", -1))
+            if i not in exc_pts:
+                rules = triggers.setdefault(i, [])
+                if v.get("rule") not in rules:
+                    rules.append(str(v.get("rule")))
+            pattern.update(int(p) for p in v.get("points") or [])
+        pattern_pts = sorted(pattern - set(triggers) - set(exc_pts))
+        dviol = (c.get("dispersion") or {}).get("violations") or []
+        disp_sig = sorted({int(v.get("index", -1)) for v in dviol})
         rules = RULE_NAMES.get(str(c.get("rules")), str(c.get("rules") or ""))
         title = {
             "individuals": "Individuals chart",
@@ -460,7 +524,8 @@ class _View:
             "label": "value" if individual else "subgroup mean",
             "title": f"{title} in measurement units, phase {c.get('phase', 'I')}, {rules} rules",
             "xlabel": "observation" if individual else "subgroup",
-            "signal_points": sig_pts,
+            "triggers": triggers,
+            "pattern_points": pattern_pts,
             "excluded_points": exc_pts,
             "dispersion": {
                 "values": _get(disp, "values"),

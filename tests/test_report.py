@@ -205,6 +205,36 @@ def test_font_falls_back_to_matplotlibs_dejavu(monkeypatch, tmp_path):
     assert Path(reg).name == "DejaVuSans.ttf" and Path(bold).name == "DejaVuSans-Bold.ttf"
 
 
+# ----------------------------------------------------------------------------- figures
+def _figure_colours(pdf: bytes) -> set[str]:
+    """Every pixel colour of every figure embedded in the PDF (images decoded by pypdf)."""
+    import io
+
+    import numpy as np
+
+    out: set[str] = set()
+    for pg in PdfReader(io.BytesIO(pdf)).pages:
+        for im in pg.images:
+            px = np.asarray(im.image.convert("RGB")).reshape(-1, 3)
+            out |= {"#%02X%02X%02X" % tuple(int(c) for c in rgb) for rgb in np.unique(px, axis=0)}
+    return out
+
+
+def test_figures_use_the_house_palette(pdf_letter):
+    """The figures draw in the app's colours (qcnorm.plots.PALETTE, the one source): data,
+    transformed data, centre line, control limits, spec limits, signals, the excluded point
+    and the grid all appear, and matplotlib's default cycle colours do not."""
+    from qcnorm.plots import PALETTE
+    from qcnorm.report import COLOUR_ROLES
+
+    assert set(COLOUR_ROLES.values()) <= set(PALETTE)
+    colours = _figure_colours(pdf_letter)  # Flatness: signals, one excluded point, LSL and USL
+    for key in ("ink", "teal", "center", "control", "spec", "signal", "excluded", "grid"):
+        assert PALETTE[key].upper() in colours, key
+    for default in ("#1F77B4", "#FF7F0E", "#2CA02C", "#D62728", "#4C72B0", "#55A868", "#C44E52"):
+        assert default not in colours, default
+
+
 # ----------------------------------------------------------------------------- page layout
 @pytest.fixture(scope="module")
 def residue_analysis():
