@@ -54,6 +54,12 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--json", action="store_true", help="print the analysis as JSON")
     a.add_argument("--pdf", metavar="OUT.pdf", help="also write the PDF summary")
     a.add_argument("--paper", default="A4", choices=["A4", "Letter"], help="paper size of the PDF")
+    for flag, what in (("--plant", "plant"), ("--line", "production line"), ("--lot", "lot"),
+                       ("--shift", "shift"), ("--operator", "operator")):
+        a.add_argument(flag, help=f"{what}, printed in the PDF header (with --pdf)")
+    a.add_argument("--date", metavar="YYYY-MM-DD",
+                   help="ISO date (or date-time, 2026-11-25T22:00) of the shift, printed in the PDF header "
+                        "and used as the PDF's creation date (with --pdf)")
     b = sub.add_parser("batch", help="analyse every characteristic of a wide or long file")
     b.add_argument("file", help="CSV/TSV/XLSX file with one column per characteristic, or a long file")
     b.add_argument("--specs", metavar="SPECS.csv",
@@ -212,9 +218,11 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
     )
     d = res.to_dict()
     if args.pdf:
-        from .report import write_pdf
+        from .report import ReportMeta, write_pdf
 
-        write_pdf(res, args.pdf, page=args.paper)
+        meta = ReportMeta(plant=args.plant, line=args.line, lot=args.lot, shift=args.shift,
+                          operator=args.operator, date=args.date)
+        write_pdf(res, args.pdf, page=args.paper, meta=meta)
     if args.json:
         sys.stdout.write(json.dumps(d, indent=2, allow_nan=False) + "\n")
     else:

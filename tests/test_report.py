@@ -505,3 +505,29 @@ def test_cli_writes_the_pdf(tmp_path, shift_analysis):
         assert "Capability was not assessed" in text
     else:
         assert _flat(cap.verdict_text) in text
+
+
+def test_cli_header_options_reach_the_pdf(tmp_path):
+    """--plant/--line/--lot/--shift/--operator/--date are printed in the PDF header (text read
+    back with pypdf); the date is also the PDF's creation date; a date that is not ISO is bad
+    input (exit 2) with the ISO form in the message."""
+    import io
+
+    out = tmp_path / "shift.pdf"
+    base = [sys.executable, "-m", "qcnorm", "analyze", str(DEMO / "line3_spool_last_shift.csv"),
+            "--column", "Ra", "--usl", "1.6", "--pdf", str(out)]
+    flags = ["--plant", "Works 2", "--line", "Line 3", "--lot", "L-1125", "--shift", "C",
+             "--operator", "J. Doe", "--date", "2026-11-25"]
+    r = subprocess.run(base + flags, capture_output=True, text=True, timeout=120, cwd=ROOT)
+    assert r.returncode == 0, r.stderr
+    data = out.read_bytes()
+    text = _flat(_text(data))
+    for label, value in (("Plant", "Works 2"), ("Line", "Line 3"), ("Lot / shift", "L-1125 / C"),
+                         ("Operator", "J. Doe"), ("Date", "2026-11-25")):
+        assert f"{label} {value}" in text, (label, value)
+    assert "Plant —" not in text and "Line —" not in text
+    meta = PdfReader(io.BytesIO(data)).metadata
+    assert meta.creation_date.date().isoformat() == "2026-11-25"
+
+    bad = subprocess.run(base + ["--date", "25/11/2026"], capture_output=True, text=True, timeout=120, cwd=ROOT)
+    assert bad.returncode == 2 and "ISO date" in bad.stderr and "Traceback" not in bad.stderr
