@@ -122,6 +122,10 @@ COLOUR_ROLES: dict[str, str] = {
 #: Line style of each kind of line, as in the app's charts.
 _LINE = {"spec": "-", "target": "-.", "limit": "--", "center": ":"}
 
+#: A legend inside the plot area: on a near-opaque white ground, so limit lines that pass
+#: behind it do not run through its text.
+_IN_AXES_LEGEND = {"frameon": True, "framealpha": 0.9, "edgecolor": "none", "fancybox": False}
+
 
 def _colours() -> dict[str, str]:
     """The figure colours, taken from the app's palette (imported when drawing, so that
@@ -299,7 +303,7 @@ def _hist_panel(ax: Any, x: np.ndarray, title: str, xlabel: str, color: str,
     ax.set_xlabel(xlabel)
     ax.set_ylabel("count")
     if drawn:
-        ax.legend(loc="upper right", frameon=False)
+        ax.legend(loc="upper right", **_IN_AXES_LEGEND)
 
 
 def _fig_histograms(view: "_View", width_mm: float) -> bytes:
@@ -336,7 +340,7 @@ def _prob_panel(ax: Any, pp: Mapping[str, Any] | None, title: str, ylabel: str, 
     if outside.any():
         ax.plot(q[outside], y[outside], "x", markersize=ms + 2, markeredgewidth=1.1, color=col["signal"],
                 label="outside the band")
-    ax.legend(loc="upper left", frameon=False)
+    ax.legend(loc="upper left", **_IN_AXES_LEGEND)
 
 
 def _fig_probability(view: "_View", width_mm: float) -> bytes:
@@ -736,7 +740,10 @@ class _Writer:
                 r = t.row()
                 for j, c in enumerate(row):
                     last = j == len(row) - 1
-                    r.cell(c, colspan=len(header) - j if last and len(row) < len(header) else 1)
+                    if last and len(row) < len(header):
+                        r.cell(c, colspan=len(header) - j, align="LEFT")
+                    else:
+                        r.cell(c)
         p.set_font("DejaVu", "", 9)
         p.ln(2)
 
@@ -861,8 +868,10 @@ def _header_pairs(v: _View) -> list[tuple[str, str]]:
     d = v.d
     s = d.get("settings") or {}
     lot_shift = " / ".join(x for x in (m.lot, m.shift) if x) or _DASH
-    spec = (f"LSL {fmt(s.get('lsl'))}, USL {fmt(s.get('usl'))}"
-            + (f", target {fmt(s.get('target'))}" if s.get("target") is not None else ""))
+    lim = {k: "none" if s.get(k) is None else fmt(s.get(k)) for k in ("lsl", "usl")}
+    spec = ("none given" if s.get("lsl") is None and s.get("usl") is None
+            else f"LSL {lim['lsl']}, USL {lim['usl']}")
+    spec += f", target {fmt(s.get('target'))}" if s.get("target") is not None else ""
     return [
         ("Plant", m.plant or _DASH),
         ("Line", m.line or _DASH),
@@ -924,14 +933,18 @@ def _sec_data(w: _Writer, v: _View) -> None:
 
 #: Columns of the candidate table: header, key in the candidate dict, format kind, alignment, width.
 CANDIDATE_COLUMNS: tuple[tuple[str, str, str, str, float], ...] = (
-    ("Candidate", "description", "text", "LEFT", 38),
+    ("Candidate", "description", "text", "LEFT", 51),
     ("Log-lik.", "loglik", "stat", "RIGHT", 10),
     ("AIC", "aic", "stat", "RIGHT", 10),
     ("ΔAIC", "delta_aic", "stat", "RIGHT", 9),
     ("AD p after", "ad_p_value", "p", "RIGHT", 10),
     ("Skewness after", "skewness_after", "stat", "RIGHT", 10),
-    ("Note", "error", "text", "LEFT", 13),
 )
+
+
+#: Names of the transform families, for a candidate that could not be fitted.
+_CANDIDATE_NAMES = {"none": "No transform", "log": "Natural log", "boxcox": "Box–Cox",
+                    "yeojohnson": "Yeo–Johnson", "johnson": "Johnson system"}
 
 
 def _text(v: Any) -> str:
@@ -949,8 +962,13 @@ def _sec_transform(w: _Writer, v: _View) -> None:
     w.para(str(t.get("reason") or ""))
     cands = list(t.get("candidates") or [])
     if cands:
-        rows = []
+        rows: list[tuple[str, ...]] = []
         for x in cands:
+            if x.get("error"):
+                # not fitted: its name, and the reason across the number columns
+                name = _CANDIDATE_NAMES.get(str(x.get("name")), str(x.get("name") or _DASH))
+                rows.append((f"{name}: not fitted", str(x["error"])))
+                continue
             chosen = " (chosen)" if x.get("name") == v.transform_name else ""
             rows.append(tuple(
                 (_text(x.get(key) or (x.get("name") if key == "description" else None))
@@ -1022,14 +1040,17 @@ def _sec_chart(w: _Writer, v: _View) -> None:
     for note in (u.get("lcl_note"), u.get("ucl_note")):
         if note:
             w.para(str(note), size=8.5)
-    viol = list(c.get("violations") or []) + list(disp.get("violations") or [])
+    # control.violations already holds the dispersion-chart signals; add any it lacks, once
+    viol = list(c.get("violations") or [])
+    seen = {(str(x.get("rule")), x.get("index")) for x in viol}
+    viol += [x for x in disp.get("violations") or [] if (str(x.get("rule")), x.get("index")) not in seen]
     if viol:
         w.subheading(f"Rule violations ({len(viol)})")
         shown = viol[:150]
-        w.table(("Point", "Rule", "What it means"),
+        w.table((v.chart_series["xlabel"].capitalize(), "Rule", "What it means"),
                 [(fmt(int(x.get("index", 0)) + 1, "int"), str(x.get("rule") or _DASH),
                   str(x.get("description") or _DASH)) for x in shown],
-                widths=(10, 22, 68), align=("RIGHT", "LEFT", "LEFT"))
+                widths=(13, 20, 67), align=("RIGHT", "LEFT", "LEFT"))
         if len(viol) > len(shown):
             w.para(f"… and {len(viol) - len(shown)} more (see the JSON export).", size=8)
     else:

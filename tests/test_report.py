@@ -205,6 +205,34 @@ def test_font_falls_back_to_matplotlibs_dejavu(monkeypatch, tmp_path):
     assert Path(reg).name == "DejaVuSans.ttf" and Path(bold).name == "DejaVuSans-Bold.ttf"
 
 
+def test_each_signal_is_listed_once(residue_analysis, residue_pdf):
+    """control.violations already holds the dispersion-chart signals (DISP): the table lists
+    each (rule, point) once, and its count agrees with the checklist's."""
+    d = residue_analysis.to_dict()
+    c = d["control"]
+    distinct = {(v["rule"], v["index"]) for v in c["violations"] + c["dispersion"]["violations"]}
+    assert c["dispersion"]["violations"]  # the case has DISP signals
+    text = _flat(_text(residue_pdf))
+    assert f"Rule violations ({len(distinct)})" in text
+    for v in c["dispersion"]["violations"]:
+        assert text.count(f"{v['index'] + 1} DISP {v['description']}") == 1
+    assert f"{len(distinct)} signals" in _flat(review_checklist(d)[0].detail)
+    assert "Observation Rule What it means" in text  # individuals chart: points are observations
+    assert "Specification none given" in text  # no spec limits
+
+
+def test_a_candidate_not_fitted_reads_as_such(shift_analysis):
+    """A transform family that was not fitted is named, with its reason across the row."""
+    cands = shift_analysis.to_dict()["transform"]["candidates"]
+    skipped = [c for c in cands if c.get("error")]
+    assert skipped  # Johnson is not tried below 100 values
+    text = _flat(_text(build_pdf(shift_analysis)))
+    for c in skipped:
+        assert _flat(f"{c['error']}") in text
+    assert "Johnson system: not fitted" in text
+    assert "LSL none, USL 1.6" in text
+
+
 # ----------------------------------------------------------------------------- figures
 def _figure_colours(pdf: bytes) -> set[str]:
     """Every pixel colour of every figure embedded in the PDF (images decoded by pypdf)."""
@@ -270,10 +298,14 @@ def _page_lines(pdf: bytes) -> list[list[str]]:
     return pages
 
 
-def test_no_heading_is_left_alone_at_the_foot_of_a_page(pdf_a4, pdf_letter, residue_analysis):
+@pytest.fixture(scope="module")
+def residue_pdf(residue_analysis) -> bytes:
+    return build_pdf(residue_analysis, page="A4")
+
+
+def test_no_heading_is_left_alone_at_the_foot_of_a_page(pdf_a4, pdf_letter, residue_pdf):
     headings = [f"{i}. {t}" for i, t in enumerate(SECTION_TITLES.values(), start=1)]
-    for pdf in (pdf_a4, pdf_letter, build_pdf(residue_analysis, page="A4"),
-                build_pdf(residue_analysis, page="Letter")):
+    for pdf in (pdf_a4, pdf_letter, residue_pdf):
         pages = _page_lines(pdf)
         for k, lines in enumerate(pages[:-1], start=1):
             last = lines[-1]
