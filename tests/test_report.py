@@ -520,10 +520,17 @@ def test_checklist_on_real_analyses_agrees_with_the_core(ra_analysis, shift_anal
 
 # ----------------------------------------------------------------------------- CLI
 def test_cli_writes_the_pdf(tmp_path, shift_analysis):
+    """The real command line (a subprocess) writes the PDF; --plant/--line/--lot/--shift/
+    --operator/--date are printed in its header (text read back with pypdf) and the date is
+    also the PDF's creation date."""
+    import io
+
     out = tmp_path / "out.pdf"
     r = subprocess.run(
         [sys.executable, "-m", "qcnorm", "analyze", str(DEMO / "line3_spool_last_shift.csv"),
-         "--column", "Ra", "--usl", "1.6", "--pdf", str(out)],
+         "--column", "Ra", "--usl", "1.6", "--pdf", str(out),
+         "--plant", "Works 2", "--line", "Line 3", "--lot", "L-1125", "--shift", "C",
+         "--operator", "J. Doe", "--date", "2026-11-25"],
         capture_output=True, text=True, timeout=120, cwd=ROOT,
     )
     assert r.returncode == 0, r.stderr
@@ -537,29 +544,20 @@ def test_cli_writes_the_pdf(tmp_path, shift_analysis):
         assert "Capability was not assessed" in text
     else:
         assert _flat(cap.verdict_text) in text
-
-
-def test_cli_header_options_reach_the_pdf(tmp_path):
-    """--plant/--line/--lot/--shift/--operator/--date are printed in the PDF header (text read
-    back with pypdf); the date is also the PDF's creation date; a date that is not ISO is bad
-    input (exit 2) with the ISO form in the message."""
-    import io
-
-    out = tmp_path / "shift.pdf"
-    base = [sys.executable, "-m", "qcnorm", "analyze", str(DEMO / "line3_spool_last_shift.csv"),
-            "--column", "Ra", "--usl", "1.6", "--pdf", str(out)]
-    flags = ["--plant", "Works 2", "--line", "Line 3", "--lot", "L-1125", "--shift", "C",
-             "--operator", "J. Doe", "--date", "2026-11-25"]
-    r = subprocess.run(base + flags, capture_output=True, text=True, timeout=120, cwd=ROOT)
-    assert r.returncode == 0, r.stderr
-    data = out.read_bytes()
-    text = _flat(_text(data))
+    # the header fields given on the command line
     for label, value in (("Plant", "Works 2"), ("Line", "Line 3"), ("Lot / shift", "L-1125 / C"),
                          ("Operator", "J. Doe"), ("Date", "2026-11-25")):
         assert f"{label} {value}" in text, (label, value)
     assert "Plant —" not in text and "Line —" not in text
-    meta = PdfReader(io.BytesIO(data)).metadata
-    assert meta.creation_date.date().isoformat() == "2026-11-25"
+    assert PdfReader(io.BytesIO(data)).metadata.creation_date.date().isoformat() == "2026-11-25"
 
-    bad = subprocess.run(base + ["--date", "25/11/2026"], capture_output=True, text=True, timeout=120, cwd=ROOT)
-    assert bad.returncode == 2 and "ISO date" in bad.stderr and "Traceback" not in bad.stderr
+
+def test_cli_date_that_is_not_iso_is_bad_input(tmp_path, capsys):
+    from qcnorm.cli import EXIT_BAD_INPUT, main
+
+    out = tmp_path / "x.pdf"
+    code = main(["analyze", str(DEMO / "line3_spool_last_shift.csv"), "--column", "Ra", "--usl", "1.6",
+                 "--pdf", str(out), "--date", "25/11/2026"])
+    err = capsys.readouterr().err
+    assert code == EXIT_BAD_INPUT and "ISO date" in err and "25/11/2026" in err
+    assert "Traceback" not in err and not out.exists()
