@@ -239,6 +239,10 @@ def _typical_index(ch: ControlChart) -> int:
     return int(np.flatnonzero(sizes == common)[0])
 
 
+def _u(units: str | None) -> str:
+    return f" {units}" if units else ""
+
+
 def _spec_beyond_fitted_bound(tr: Transform, lsl: float | None, usl: float | None) -> bool:
     """True when a spec limit falls outside a domain bound that was *estimated* from data.
 
@@ -496,6 +500,13 @@ def analyze(
         baseline=None if baseline is None else baseline.chart,
     )
     lu = limits_in_units(ch, tr)
+    lcl_units = np.asarray(lu.lcl, dtype=float)
+    if x.min() >= 0 and np.any(np.isfinite(lcl_units) & (lcl_units < 0)):
+        warnings.append(
+            f"The lower control limit in measurement units is below zero ({np.nanmin(lcl_units):.3g}{_u(units)}) "
+            "although no value is negative: if this characteristic cannot be negative (an impurity, a "
+            "roughness, a residue), there is in effect no lower limit — only the upper limit can signal."
+        )
     warnings.extend(ch.warnings)
     if not ch.in_control:
         k = len(ch.violations) + len(ch.dispersion.violations)

@@ -242,3 +242,17 @@ def test_checklist_counts_each_signal_once():
     d = a.to_dict()["control"]
     assert len(d["violations"]) == total
     assert review_checklist(a)[0].detail.startswith(f"{total} signal")
+
+
+def test_negative_lower_limit_for_non_negative_data_is_explained():
+    """Yeo–Johnson's inverse can give an LCL below zero for data that are never negative
+    (zeros from a balance's resolution); the result says there is in effect no lower limit."""
+    rng = np.random.default_rng(3)
+    x = rng.lognormal(np.log(0.35), 0.8, 400)
+    x[x < 0.12] = 0.0
+    a = analyze(np.round(x, 2), chart="individuals")
+    assert a.transform.name == "yeojohnson"  # zeros rule out log and Box–Cox
+    assert np.nanmin(np.asarray(a.limits_units.lcl, dtype=float)) < 0
+    assert any("below zero" in w for w in a.warnings)
+    b = analyze(np.round(x, 2) + 1.0, chart="individuals", transform="none")  # LCL well above 0
+    assert not any("below zero" in w for w in b.warnings)
