@@ -152,18 +152,12 @@ def fmt(v: Any, digits: int = 4) -> str:
 
 
 def fmt_p(v: Any) -> str:
-    """A p-value for reading: '< 0.0001' below that, else 4 significant digits (as fmt)."""
-    if v is None:
-        return "—"
+    """A p-value for reading: '< 0.0001' below that, else as :func:`fmt`."""
     try:
         f = float(v)
     except (TypeError, ValueError):
-        return str(v)
-    if math.isnan(f):
-        return "—"
-    if f < 1e-4:
-        return "< 0.0001"
-    return fmt(f)
+        return fmt(v)
+    return "< 0.0001" if 0.0 <= f < 1e-4 else fmt(f)
 
 
 def fmt_limit(v: Any, units: str | None = None) -> str:
