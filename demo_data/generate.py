@@ -91,25 +91,23 @@ def build_rows(seed: int = SEED) -> list[dict[str, object]]:
     return rows
 
 
-def write_all(folder: Path = HERE, seed: int = SEED) -> list[Path]:
-    rows = build_rows(seed)
-    written: list[Path] = []
-    wide = folder / "line3_spool_wide.csv"
-    with wide.open("w", newline="", encoding="utf-8") as fh:
+def _write_rows(path: Path, rows: list[dict[str, object]]) -> Path:
+    with path.open("w", newline="", encoding="utf-8") as fh:
         w = csv.DictWriter(fh, fieldnames=list(rows[0]))
         w.writeheader()
         w.writerows(rows)
-    written.append(wide)
+    return path
+
+
+def write_all(folder: Path = HERE, seed: int = SEED) -> list[Path]:
+    rows = build_rows(seed)
+    written: list[Path] = []
+    written.append(_write_rows(folder / "line3_spool_wide.csv", rows))
 
     # The latest shift only: what a technician loads at the end of a shift.
     last_day, last_shift = rows[-1]["Date"], rows[-1]["Shift"]
     shift_rows = [r for r in rows if r["Date"] == last_day and r["Shift"] == last_shift]
-    one = folder / "line3_spool_last_shift.csv"
-    with one.open("w", newline="", encoding="utf-8") as fh:
-        w = csv.DictWriter(fh, fieldnames=list(rows[0]))
-        w.writeheader()
-        w.writerows(shift_rows)
-    written.append(one)
+    written.append(_write_rows(folder / "line3_spool_last_shift.csv", shift_rows))
 
     # The same data in long layout (one measurement per line).
     long = folder / "line3_spool_long.csv"
