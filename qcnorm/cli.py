@@ -9,13 +9,15 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import re
 import sys
 import traceback
 from collections.abc import Sequence
 from typing import Any
 
 from ._version import __version__
-from .errors import QcnormError
+from .errors import QcnormError, ReadError
+from .io.hints import HINTS, hint_text
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
 
@@ -78,7 +80,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _cmd_batch(args: argparse.Namespace) -> int:
     from .batch import run_batch
-    from .data import export_csv, export_xlsx
+    from .io import export_csv, export_xlsx
 
     if not os.path.exists(args.file):
         raise QcnormError(f"File not found: {args.file}. Check the path and try again.")
@@ -122,7 +124,7 @@ def _cmd_batch(args: argparse.Namespace) -> int:
 
 
 def _read(args: argparse.Namespace):
-    from .data import read_measurements
+    from .io import read_measurements
 
     source: Any = args.file
     if args.file == "-":
@@ -232,21 +234,47 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-# The core's messages name Python keyword arguments; on the command line say the flags.
-_CLI_WORDS = (
-    ("list_characteristics() shows their counts", "'python -m qcnorm batch FILE' analyses them all"),
-    ("include_censored=True", "--include-censored"),
-    ("characteristic=", "--characteristic"),
-    ("column=", "--column"),
-    ("subgroup=", "--subgroup"),
-    ("sheet=", "--sheet"),
-)
+#: The reader's hints (codes of ``qcnorm.io.hints.HINTS``) in the words of the command line:
+#: the flags instead of Python keyword arguments. ``{flag}`` is the flag of the hint's
+#: ``param``; a code not listed keeps the reader's own wording.
+_CLI_WORDS: dict[str, str] = {
+    "column.choose": "Choose one with --column (its name or 0-based index); 'python -m qcnorm batch FILE' "
+                     "analyses them all.",
+    "column.ambiguous": "Pass the full name with its units or a 0-based index as {flag}.",
+    "column.unknown": "Pass one of these names (or its 0-based index) as {flag}.",
+    "column.index": "Pass one of these names or an index from 0 to {last}.",
+    "characteristic.choose": "Pass --characteristic with one of these names.",
+    "characteristic.unknown": "Pass one of these as --characteristic.",
+    "characteristic.conflict": "Leave out --column or --characteristic.",
+    "characteristic.not_long": "Choose the measurement column with --column.",
+    "sheet.choose": "Pass one of these names as --sheet.",
+    "sheet.another": "pass --sheet to read another",
+    "censored.include": "pass --include-censored to use the stated limits instead",
+    "censored.include_short": "(--include-censored uses the limit)",
+}
+#: The reader's keyword arguments that a message may name ("column='x'"), and their flags.
+_CLI_FLAGS = {"characteristic": "--characteristic", "column": "--column", "subgroup": "--subgroup",
+              "sheet": "--sheet"}
+_OPTION = re.compile(r"\b(" + "|".join(_CLI_FLAGS) + r")=")
 
 
-def _in_cli_words(message: str) -> str:
-    for py, flag in _CLI_WORDS:
-        message = message.replace(py, flag)
-    return message
+def _in_cli_words(exc: BaseException) -> str:
+    """The message of ``exc`` with the reader's hints and option names in the words of the CLI.
+
+    A :class:`ReadError` carries its hint as a code: the CLI's wording of that code
+    replaces the reader's. Hints quoted inside other messages (the reasons of excluded
+    rows in "too few values") are found by their code's text in ``HINTS``.
+    """
+    words = {code: text for code, text in _CLI_WORDS.items() if "{" not in HINTS[code]}
+    if isinstance(exc, ReadError) and exc.hint_code in _CLI_WORDS:
+        param = str(exc.hint_args.get("param", ""))
+        flag = _CLI_FLAGS.get(param, f"{param}=")
+        text = f"{exc.problem} {_CLI_WORDS[exc.hint_code].format(flag=flag, **exc.hint_args)}"
+    else:
+        text = str(exc)
+    for code, cli in words.items():
+        text = text.replace(hint_text(code), cli)
+    return _OPTION.sub(lambda m: _CLI_FLAGS[m.group(1)] + " ", text)
 
 
 COMMANDS = {"analyze": _cmd_analyze, "batch": _cmd_batch}
@@ -261,7 +289,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return COMMANDS[args.command](args)
     except QcnormError as exc:
-        sys.stderr.write(f"qcnorm: {_in_cli_words(str(exc))}\n")
+        sys.stderr.write(f"qcnorm: {_in_cli_words(exc)}\n")
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         sys.stderr.write("qcnorm: interrupted\n")

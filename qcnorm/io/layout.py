@@ -9,9 +9,9 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import ConfigError
+from ..errors import ConfigError, ReadError
 from .hints import read_error
-from ._common import _cell_text, _full_key, _norm_key
+from ._common import _cell_text, _full_key, _list_rows, _norm_key
 from .names import _CHARACTERISTIC_NAMES, _NOT_MEASUREMENT_NAMES, _UNIT_COLUMN_NAMES, _VALUE_NAMES, _column_key, _split_units
 from .table import _Table
 
@@ -158,3 +158,84 @@ def _labels_listing(counts: Counter, limit: int = 20) -> str:
     items = [(k, v) for k, v in counts.items() if k]
     shown = ", ".join(f"{k} ({v} rows)" for k, v in items[:limit])
     return shown + (f" … ({len(items)} in all)" if len(items) > limit else "")
+
+
+def _choose_long(table: _Table, layout: _Layout, column: Any, characteristic: str | None,
+                 notes: list[str], warns: list[str]) -> tuple[int, str | None]:
+    """Value column and characteristic label to read from a long table (notes/warnings appended).
+
+    In a long file ``column=`` may name the value column or a characteristic. The
+    label is None when ``column=`` chose another column than the value column.
+    """
+    assert layout.char_col is not None and layout.value_col is not None
+    counts = _long_labels(table, layout)
+    labels = [lab for lab in counts if lab]
+    wanted = characteristic
+    col = layout.value_col
+    if column is not None:
+        try:
+            col = _find_column(table, column, "column")
+        except ReadError:
+            # In a long file column= may name a characteristic.
+            if wanted is None and isinstance(column, str) and _match_label(column, labels):
+                wanted = column
+            else:
+                raise
+    if col != layout.value_col:
+        if characteristic is not None:
+            raise read_error(
+                f"characteristic={characteristic!r} selects rows by the column "
+                f"'{table.names[layout.char_col]}', but column={column!r} is not its value column "
+                f"'{table.names[layout.value_col]}'.", "characteristic.conflict")
+        return col, None
+    if wanted is None:
+        if len(labels) != 1:
+            raise read_error(
+                f"{table.where()} is a long table ({layout.how}) with {len(labels)} characteristics: "
+                + _labels_listing(counts) + ".", "characteristic.choose")
+        wanted = labels[0]
+    char_label = _match_label(wanted, labels)
+    if char_label is None:
+        raise read_error(
+            f"No characteristic {wanted!r} in column '{table.names[layout.char_col]}' of "
+            f"{table.where()}. Characteristics: {_labels_listing(counts)}.", "characteristic.unknown")
+    notes.append(f"Long layout: {layout.how}; read the rows of '{char_label}'.")
+    other = sum(v for k, v in counts.items() if k and k != char_label)
+    if other:
+        notes.append(f"{other} row(s) of other characteristics were not read (not excluded).")
+    if counts.get(""):
+        unlabeled = [r for r, c in table.body if not _cell_text(table.cell(c, layout.char_col)).strip()]
+        warns.append(f"{len(unlabeled)} row(s) have no label in column '{table.names[layout.char_col]}' "
+                     f"and belong to no characteristic (rows {_list_rows(unlabeled)}); they were not "
+                     "read. Fill in the label to include them.")
+    return col, char_label
+
+
+def _choose_wide(table: _Table, layout: _Layout, column: Any, characteristic: str | None) -> int:
+    """The measurement column of a wide or single-column table."""
+    if characteristic is not None:
+        raise read_error(
+            f"characteristic={characteristic!r} was given, but {table.where()} is not a long table "
+            "(no characteristic column with a value column was found); its columns are: "
+            f"{table.columns_listing()}.", "characteristic.not_long")
+    if column is not None:
+        return _find_column(table, column, "column")
+    if len(layout.measurement_cols) == 1:
+        return layout.measurement_cols[0]
+    if not layout.measurement_cols:
+        raise read_error(
+            f"No numeric values found in {table.where()}: no column holds numbers "
+            f"({len(table.body)} data row(s); columns: {table.columns_listing()}).", "column.no_numbers")
+    listing = ", ".join(f"{j}: {table.names[j]}" for j in layout.measurement_cols)
+    raise read_error(f"{table.where()} has {len(layout.measurement_cols)} measurement columns ({listing}).",
+                     "column.choose")
+
+
+def _long_units(table: _Table, layout: _Layout, char_label: str | None, warns: list[str]) -> str | None:
+    """The units a long table's unit column gives the rows of ``char_label`` (None unless one)."""
+    found = {_cell_text(table.cell(c, layout.unit_col)).strip() for _, c in table.body
+             if _cell_text(table.cell(c, layout.char_col)).strip() == char_label} - {""}
+    if len(found) > 1:
+        warns.append(f"Rows of '{char_label}' give different units ({', '.join(sorted(found))}); "
+                     "check that they are comparable.")
+    return found.pop() if len(found) == 1 else None

@@ -3,18 +3,17 @@
 from __future__ import annotations
 
 import dataclasses
-import math
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from .._validation import check_choice
-from ..errors import ConfigError, QcnormError, ReadError
-from .hints import hint_text, read_error
-from ._common import _cell_text, _list_rows, _quote
-from .ingest import CensoredValue, ExcludedRow, IngestReport
-from .layout import _column_stats, _detect_layout, _find_column, _labels_listing, _long_labels, _match_label
+from ..errors import ConfigError, QcnormError
+from .hints import read_error
+from ._common import _cell_text
+from .ingest import IngestReport, _collect_rows, _report_rows
+from .layout import _choose_long, _choose_wide, _column_stats, _detect_layout, _find_column, _long_units
 from .results import CharacteristicInfo, Measurements, RawTable
 from .table import _table_from
 
@@ -93,177 +92,23 @@ def read_measurements(
         layout = _detect_layout(table)
     notes = list(table.notes)
     warns = list(table.warnings)
-
-    char_label: str | None = None
-    col: int
     if layout.kind == "long":
-        assert layout.char_col is not None and layout.value_col is not None
-        counts = _long_labels(table, layout)
-        labels = [lab for lab in counts if lab]
-        wanted = characteristic
-        col = layout.value_col
-        if column is not None:
-            try:
-                col = _find_column(table, column, "column")
-            except ReadError:
-                # In a long file column= may name a characteristic.
-                if wanted is None and isinstance(column, str) and _match_label(column, labels):
-                    wanted = column
-                else:
-                    raise
-        if col == layout.value_col:
-            if wanted is None:
-                if len(labels) == 1:
-                    wanted = labels[0]
-                else:
-                    raise read_error(
-                        f"{table.where()} is a long table ({layout.how}) with {len(labels)} characteristics: "
-                        + _labels_listing(counts) + ".", "characteristic.choose")
-            char_label = _match_label(wanted, labels)
-            if char_label is None:
-                raise read_error(
-                    f"No characteristic {wanted!r} in column '{table.names[layout.char_col]}' of "
-                    f"{table.where()}. Characteristics: {_labels_listing(counts)}.", "characteristic.unknown")
-            notes.append(f"Long layout: {layout.how}; read the rows of '{char_label}'.")
-            other = sum(v for k, v in counts.items() if k and k != char_label)
-            if other:
-                notes.append(f"{other} row(s) of other characteristics were not read (not excluded).")
-            if counts.get(""):
-                unlabeled = [r for r, c in table.body
-                             if not _cell_text(table.cell(c, layout.char_col)).strip()]
-                warns.append(f"{len(unlabeled)} row(s) have no label in column '{table.names[layout.char_col]}' "
-                             f"and belong to no characteristic (rows {_list_rows(unlabeled)}); they were not "
-                             "read. Fill in the label to include them.")
-        elif characteristic is not None:
-            raise read_error(
-                f"characteristic={characteristic!r} selects rows by the column "
-                f"'{table.names[layout.char_col]}', but column={column!r} is not its value column "
-                f"'{table.names[layout.value_col]}'.", "characteristic.conflict")
+        col, char_label = _choose_long(table, layout, column, characteristic, notes, warns)
     else:
-        if characteristic is not None:
-            raise read_error(
-                f"characteristic={characteristic!r} was given, but {table.where()} is not a long table "
-                "(no characteristic column with a value column was found); its columns are: "
-                f"{table.columns_listing()}.", "characteristic.not_long")
-        if column is not None:
-            col = _find_column(table, column, "column")
-        elif len(layout.measurement_cols) == 1:
-            col = layout.measurement_cols[0]
-        elif not layout.measurement_cols:
-            raise read_error(
-                f"No numeric values found in {table.where()}: no column holds numbers "
-                f"({len(table.body)} data row(s); columns: {table.columns_listing()}).", "column.no_numbers")
-        else:
-            listing = ", ".join(f"{j}: {table.names[j]}" for j in layout.measurement_cols)
-            raise read_error(f"{table.where()} has {len(layout.measurement_cols)} measurement columns ({listing}).",
-                             "column.choose")
-
+        col, char_label = _choose_wide(table, layout, column, characteristic), None
     sub_col = _find_column(table, subgroup, "subgroup") if subgroup is not None else None
     ord_col = _find_column(table, order, "order") if order is not None else None
-    name = table.names[col]
     units = table.units[col]
     if layout.kind == "long" and layout.unit_col is not None:
-        found = {_cell_text(table.cell(c, layout.unit_col)).strip() for _, c in table.body
-                 if _cell_text(table.cell(c, layout.char_col)).strip() == char_label} - {""}
-        if len(found) == 1:
-            units = found.pop()
-        elif len(found) > 1:
-            warns.append(f"Rows of '{char_label}' give different units ({', '.join(sorted(found))}); "
-                         "check that they are comparable.")
-
-    values: list[float] = []
-    rows_out: list[int] = []
-    subs: list[str] = []
-    ords: list[str] = []
-    excluded: list[ExcludedRow] = []
-    censored: list[CensoredValue] = []
-    n_substituted = 0
-    text_numbers: list[int] = []
-    classify = table.classify
-    is_xlsx = table.grid.kind == "xlsx"
+        units = _long_units(table, layout, char_label, warns) or units
     char_col = layout.char_col if char_label is not None else None
-    for r, cells in table.body:
-        if char_col is not None and _cell_text(cells[char_col] if char_col < len(cells) else None
-                                               ).strip() != char_label:
-            continue
-        raw = cells[col] if col < len(cells) else None
-        k = classify(raw)
-        kind = k.kind
-        if kind == "number" and sub_col is None and ord_col is None:
-            values.append(k.value)  # the common case, kept short for large files
-            rows_out.append(r)
-            if is_xlsx and isinstance(raw, str):
-                text_numbers.append(r)
-            continue
-        text = _cell_text(raw)
-        value: float | None = None
-        if kind == "number":
-            value = k.value
-            if is_xlsx and isinstance(raw, str):
-                text_numbers.append(r)
-        elif kind == "censored":
-            has_limit = not math.isnan(k.value)
-            censored.append(CensoredValue(r, text.strip(), k.censor_kind, k.value if has_limit else None))
-            if include_censored and has_limit:
-                value = k.value
-                n_substituted += 1
-            elif include_censored:
-                excluded.append(ExcludedRow(r, name, text, k.reason + "; no number to substitute"))
-                continue
-            else:
-                excluded.append(ExcludedRow(r, name, text, k.reason + "; censored values are excluded by "
-                                            f"default {hint_text('censored.include_short')}"))
-                continue
-        else:
-            excluded.append(ExcludedRow(r, name, text, k.reason))
-            continue
-        if sub_col is not None:
-            label = _cell_text(table.cell(cells, sub_col)).strip()
-            if not label:
-                excluded.append(ExcludedRow(r, name, text, f"no subgroup label in column "
-                                            f"'{table.names[sub_col]}'"))
-                continue
-            subs.append(label)
-        if ord_col is not None:
-            ords.append(_cell_text(table.cell(cells, ord_col)).strip())
-        values.append(value)
-        rows_out.append(r)
-
-    if is_xlsx and text_numbers:
-        notes.append(f"{len(text_numbers)} number(s) stored as text in the sheet were read as numbers "
-                     f"(rows {_list_rows(text_numbers)}).")
-    n_cens_excluded = len(censored) - n_substituted
-    if censored and not include_censored:
-        warns.append(
-            f"{len(censored)} censored value(s) (reported only as below or above a limit, e.g. "
-            f"{_quote(censored[0].text)}) were excluded. Capability computed without them may be "
-            f"optimistic, because the values beyond the limits are left out; {hint_text('censored.include')}."
-        )
-    elif censored:
-        msg = (f"{n_substituted} censored value(s) were replaced by their stated limits (e.g. "
-               f"{_quote(censored[0].text)}); the true values lie beyond these limits, so spread and tail "
-               "estimates are uncertain.")
-        if n_cens_excluded:
-            msg += f" {n_cens_excluded} censored mark(s) without a number were excluded."
-        warns.append(msg)
-    if not values:
-        reasons = "; ".join(f"row {e.row}: {e.reason}" for e in excluded[:3])
-        raise read_error(
-            f"No numeric values in column '{name}' of {table.where()}"
-            + (f" for characteristic '{char_label}'" if char_label else "")
-            + f": {len(excluded)} row(s), all excluded" + (f" ({reasons}" + (" …)" if len(excluded) > 3 else ")")
-                                                           if excluded else "")
-            + ".", "values.none", columns=table.columns_listing())
-    total = len(values) + len(excluded)
-    if excluded and len(excluded) >= max(3, 0.1 * total):
-        warns.append(f"{len(excluded)} of {total} row(s) ({100 * len(excluded) / total:.0f}%) were excluded; "
-                     f"{hint_text('excluded.see')}.")
-    thousands_used = table.thousands
+    rows = _collect_rows(table, col, char_col, char_label, sub_col, ord_col, bool(include_censored))
+    _report_rows(rows, table, table.names[col], char_label, bool(include_censored), notes, warns)
     report = IngestReport(
-        excluded=tuple(excluded),
+        excluded=tuple(rows.excluded),
         delimiter=table.grid.delimiter,
         decimal=table.decimal,
-        thousands=thousands_used,
+        thousands=table.thousands,
         encoding=table.grid.encoding,
         sheet=table.grid.sheet,
         header_row=table.header_row,
@@ -278,15 +123,15 @@ def read_measurements(
         "max_rows": max_rows,
     }
     return Measurements(
-        values=np.asarray(values, dtype=np.float64),
-        rows=np.asarray(rows_out, dtype=np.int64),
-        subgroups=np.asarray(subs, dtype=str) if sub_col is not None else None,
-        order=np.asarray(ords, dtype=str) if ord_col is not None else None,
-        column=name,
+        values=np.asarray(rows.values, dtype=np.float64),
+        rows=np.asarray(rows.rows, dtype=np.int64),
+        subgroups=np.asarray(rows.subgroups, dtype=str) if sub_col is not None else None,
+        order=np.asarray(rows.order, dtype=str) if ord_col is not None else None,
+        column=table.names[col],
         characteristic=char_label,
         units=units,
         source_name=table.name,
-        censored=tuple(censored),
+        censored=tuple(rows.censored),
         report=report,
         settings=settings,
     )

@@ -117,9 +117,9 @@ def _text_over_numbers(rows: list[tuple[int, list[Any]]], classify: _Classifier)
     return False
 
 
-def _build_table(grid: _Grid, decimal: str | None) -> _Table:
-    notes = list(grid.notes)
-    warns = list(grid.warnings)
+def _number_format(grid: _Grid, decimal: str | None, notes: list[str],
+                   warns: list[str]) -> tuple[str, str | None]:
+    """Decimal and thousands characters of the grid's text cells (notes/warnings appended)."""
     # Number format from the file-wide evidence (text cells only; spreadsheet numbers are exact).
     evidence = _Evidence()
     # Evidence comes from the distinct texts of the file (at most _EVIDENCE_TEXTS of them,
@@ -141,13 +141,10 @@ def _build_table(grid: _Grid, decimal: str | None) -> _Table:
         notes.append("Every line holds one number with one comma (such as '12,5'), so the file was read as "
                      "one column with decimal commas. If it has two comma-separated columns, add a header "
                      "line such as 'x,y'.")
-        more_notes: list[str] = []
-        more_warns: list[str] = []
     else:
         chosen, more_notes, more_warns = _choose_decimal(evidence, grid.delimiter, decimal)
-    notes.extend(more_notes)
-    warns.extend(more_warns)
-    classify = _Classifier(_NumberFormat(chosen))
+        notes.extend(more_notes)
+        warns.extend(more_warns)
     thousands = None
     allowed = {c for c in evidence.thousands if c != chosen}
     if allowed:
@@ -156,6 +153,15 @@ def _build_table(grid: _Grid, decimal: str | None) -> _Table:
         thousands = ","  # "1,234" read as 1234
     elif chosen == "," and evidence.dot_ambiguous:
         thousands = "."  # "1.234" read as 1234
+    return chosen, thousands
+
+
+def _build_table(grid: _Grid, decimal: str | None) -> _Table:
+    """Number format, title lines, header row, units row and unique column names of a grid."""
+    notes = list(grid.notes)
+    warns = list(grid.warnings)
+    chosen, thousands = _number_format(grid, decimal, notes, warns)
+    classify = _Classifier(_NumberFormat(chosen))
 
     content = [_has_content(cells) for _, cells in grid.rows]
     blank = [r for (r, _), c in zip(grid.rows, content) if not c]
