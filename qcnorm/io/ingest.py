@@ -78,6 +78,9 @@ def _collect_rows(table: _Table, col: int, char_col: int | None, char_label: str
                   sub_col: int | None, ord_col: int | None, include_censored: bool) -> _Rows:
     """Walk the data rows of column ``col`` (of characteristic ``char_label`` in a long table)."""
     out = _Rows()
+    # Local names for the lists: this loop runs once per row of large files.
+    values, rows_out, subs, ords = out.values, out.rows, out.subgroups, out.order
+    excluded, censored, text_numbers = out.excluded, out.censored, out.text_numbers
     name = table.names[col]
     classify = table.classify
     is_xlsx = table.grid.kind == "xlsx"
@@ -89,44 +92,44 @@ def _collect_rows(table: _Table, col: int, char_col: int | None, char_label: str
         k = classify(raw)
         kind = k.kind
         if kind == "number" and sub_col is None and ord_col is None:
-            out.values.append(k.value)  # the common case, kept short for large files
-            out.rows.append(r)
+            values.append(k.value)  # the common case, kept short for large files
+            rows_out.append(r)
             if is_xlsx and isinstance(raw, str):
-                out.text_numbers.append(r)
+                text_numbers.append(r)
             continue
         text = _cell_text(raw)
         value: float | None = None
         if kind == "number":
             value = k.value
             if is_xlsx and isinstance(raw, str):
-                out.text_numbers.append(r)
+                text_numbers.append(r)
         elif kind == "censored":
             has_limit = not math.isnan(k.value)
-            out.censored.append(CensoredValue(r, text.strip(), k.censor_kind, k.value if has_limit else None))
+            censored.append(CensoredValue(r, text.strip(), k.censor_kind, k.value if has_limit else None))
             if include_censored and has_limit:
                 value = k.value
                 out.n_substituted += 1
             elif include_censored:
-                out.excluded.append(ExcludedRow(r, name, text, k.reason + "; no number to substitute"))
+                excluded.append(ExcludedRow(r, name, text, k.reason + "; no number to substitute"))
                 continue
             else:
-                out.excluded.append(ExcludedRow(r, name, text, k.reason + "; censored values are excluded by "
+                excluded.append(ExcludedRow(r, name, text, k.reason + "; censored values are excluded by "
                                                 f"default {hint_text('censored.include_short')}"))
                 continue
         else:
-            out.excluded.append(ExcludedRow(r, name, text, k.reason))
+            excluded.append(ExcludedRow(r, name, text, k.reason))
             continue
         if sub_col is not None:
             label = _cell_text(table.cell(cells, sub_col)).strip()
             if not label:
-                out.excluded.append(ExcludedRow(r, name, text, f"no subgroup label in column "
+                excluded.append(ExcludedRow(r, name, text, f"no subgroup label in column "
                                                 f"'{table.names[sub_col]}'"))
                 continue
-            out.subgroups.append(label)
+            subs.append(label)
         if ord_col is not None:
-            out.order.append(_cell_text(table.cell(cells, ord_col)).strip())
-        out.values.append(value)
-        out.rows.append(r)
+            ords.append(_cell_text(table.cell(cells, ord_col)).strip())
+        values.append(value)
+        rows_out.append(r)
     return out
 
 
