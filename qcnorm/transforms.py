@@ -654,6 +654,19 @@ def _yj_neg(lm: np.ndarray, lam: float, out: np.ndarray | None = None) -> np.nda
     return out
 
 
+def _lambda_estimate_params(t: Transform) -> dict[str, float]:
+    """``lambda_mle``, ``lambda_ci_low``, ``lambda_ci_high`` when the fit knows them.
+
+    They report the estimate beside the λ used (which may be rounded); a transform rebuilt
+    from parameters stored without them (older baselines) simply omits them.
+    """
+    ci = getattr(t, "lambda_ci_", None)
+    mle = getattr(t, "lambda_mle_", getattr(t, "lambda_", math.nan))
+    if ci is None or not (math.isfinite(mle) and all(map(math.isfinite, ci))):
+        return {}
+    return {"lambda_mle": mle, "lambda_ci_low": ci[0], "lambda_ci_high": ci[1]}
+
+
 def _round_lambda(lam: float, ci: tuple[float, float]) -> float | None:
     inside = [c for c in CONVENIENT_LAMBDAS if ci[0] <= c <= ci[1]]
     if not inside:
@@ -772,7 +785,7 @@ class BoxCox(Transform):
         return (-1.0 / lam, math.inf) if lam > 0 else (-math.inf, -1.0 / lam)
 
     def _params(self):
-        return {"lambda": self.lambda_, "shift": self.shift_}
+        return {"lambda": self.lambda_, "shift": self.shift_, **_lambda_estimate_params(self)}
 
     @property
     def n_model_params(self) -> int:
@@ -781,11 +794,18 @@ class BoxCox(Transform):
 
     def describe(self) -> str:
         self._check_fitted()
-        txt = f"Box–Cox power transform, λ = {self.lambda_:.3g}"
-        ci = getattr(self, "lambda_ci_", None)
-        if ci is not None and all(map(math.isfinite, ci)):
-            txt += f" (95 % interval {ci[0]:.3g} to {ci[1]:.3g}"
-            txt += f"; maximum-likelihood {self.lambda_mle_:.3g}, rounded)" if self.rounded_ else ")"
+        lam, ci = self.lambda_, getattr(self, "lambda_ci_", None)
+        if ci is None or not all(map(math.isfinite, ci)):
+            txt = f"Box–Cox power transform, λ = {lam:.3g}"
+        elif self.rounded_:
+            txt = (f"Box–Cox power transform, λ = {lam:g} used (rounded from the maximum-likelihood "
+                   f"estimate {self.lambda_mle_:.3g}; its 95 % interval {ci[0]:.3g} to {ci[1]:.3g} "
+                   f"contains {lam:g})")
+        else:
+            why = ("no convenient value (−1, −0.5, 0, 0.5, 1, 2) lies inside that interval"
+                   if self.round_lambda else "rounding to a convenient value was switched off")
+            txt = (f"Box–Cox power transform, λ = {lam:.3g} used as estimated (maximum likelihood; "
+                   f"95 % interval {ci[0]:.3g} to {ci[1]:.3g}; not rounded: {why})")
         if self.shift_ != 0:
             txt += f", applied to x + {_fmt(self.shift_)}"
         return txt + "."
@@ -857,7 +877,7 @@ class YeoJohnson(Transform):
         return (lo, hi)
 
     def _params(self):
-        return {"lambda": self.lambda_}
+        return {"lambda": self.lambda_, **_lambda_estimate_params(self)}
 
     @property
     def n_model_params(self) -> int:
@@ -1245,9 +1265,11 @@ def transform_from_params(name: str, params: Mapping[str, Any]) -> Transform:
         t = BoxCox(shift=vals["shift"])
         t.shift_, t.lambda_, t.lambda_mle_ = vals["shift"], vals["lambda"], vals["lambda"]
         t.lambda_ci_, t.rounded_, t.shift_fitted_ = None, False, False
+        _restore_estimate(t, params)
     elif base == "yeojohnson":
         t = YeoJohnson()
         t.lambda_, t.lambda_ci_ = vals["lambda"], None
+        _restore_estimate(t, params)
     else:
         fam = name.split("_", 1)[1]
         if vals["eta"] <= 0 or vals["lambda"] <= 0:
@@ -1256,6 +1278,21 @@ def transform_from_params(name: str, params: Mapping[str, Any]) -> Transform:
         t._set(fam, vals["gamma"], vals["eta"], vals["epsilon"], vals["lambda"])
     t._fitted = True
     return t
+
+
+def _restore_estimate(t: Transform, params: Mapping[str, Any]) -> None:
+    """Put back the stored λ estimate and interval (optional keys; ignored when absent or bad)."""
+    try:
+        mle, lo, hi = (float(params[k]) for k in ("lambda_mle", "lambda_ci_low", "lambda_ci_high"))
+    except (KeyError, TypeError, ValueError):
+        return
+    if not all(map(math.isfinite, (mle, lo, hi))) or not lo <= mle <= hi:
+        return
+    t.lambda_mle_, t.lambda_ci_ = mle, (lo, hi)
+    if isinstance(t, BoxCox):
+        t.rounded_ = abs(t.lambda_ - mle) > LAMBDA_TOL
+        # unrounded although a convenient value lay inside: rounding was off for that fit
+        t.round_lambda = t.rounded_ or _round_lambda(mle, (lo, hi)) is None
 
 
 # --------------------------------------------------------------------------- spread–level
