@@ -225,3 +225,20 @@ def test_exact_lambda_switch_round_trips_through_json(tmp_path, capsys):
         back = transform_from_params("boxcox", d["transform"]["params"])
         assert back.params_ == pytest.approx(d["transform"]["params"], abs=1e-12)
         assert back.describe() == d["transform"]["description"]
+
+
+def test_zeros_switch_reaches_the_json(tmp_path, capsys):
+    # gamma(1.5) recorded to 0.1 with two 0.0 readings (issue 10, case 1)
+    x = np.round(np.random.default_rng(0).gamma(1.5, 1.0, 300), 1)
+    f = tmp_path / "z.csv"
+    f.write_text("Value\n" + "\n".join(f"{v:.1f}" for v in x) + "\n")
+    got = {}
+    for how in ("censor", "exclude"):
+        assert main(["analyze", str(f), "--column", "Value", "--usl", "8", "--json", "--zeros", how]) == 0
+        got[how] = json.loads(capsys.readouterr().out)
+    assert got["censor"]["transform"]["zero_handling"]["method"] == "censored"
+    assert got["censor"]["settings"]["zeros"] == "censor"
+    assert got["exclude"]["transform"]["zero_handling"]["method"] == "excluded"
+    ex = {c["name"]: c for c in got["exclude"]["transform"]["candidates"]}
+    assert "not applicable" in ex["log"]["error"] and "zeros='censor'" in ex["log"]["error"]
+    assert main(["analyze", str(f), "--column", "Value", "--zeros", "drop"]) == 2

@@ -455,3 +455,51 @@ def test_lambda_estimate_survives_transform_from_params():
         assert back.describe() == t.describe()
     old = transform_from_params("boxcox", {"lambda": 0.5, "shift": 0.0})  # stored before these keys
     assert set(old.params_) == {"lambda", "shift"}
+
+
+# --------------------------------------------------------------------------- readings of 0 below the gauge step
+from qcnorm.transforms import Log, censored_normal_fit, substitute_zero_readings  # noqa: E402
+
+
+def test_censored_normal_fit_matches_scipy_optimiser():
+    # Reference: the left-censored normal likelihood Σ norm.logpdf + k·norm.logcdf(c) maximised by
+    # scipy.optimize.minimize (Nelder–Mead) (Tobin 1958).
+    from scipy import optimize
+
+    y = np.random.default_rng(1).normal(1.0, 2.0, 200)
+    c = 0.0
+    ex, k = y[y > c], int((y <= c).sum())
+    f = censored_normal_fit(ex.size, ex.sum(), float(ex @ ex), k, -np.inf, c)
+
+    def nll(th):
+        return -(stats.norm.logpdf(ex, th[0], np.exp(th[1])).sum() + k * stats.norm.logcdf(c, th[0], np.exp(th[1])))
+
+    r = optimize.minimize(nll, [0.0, 0.0], method="Nelder-Mead",
+                          options={"xatol": 1e-10, "fatol": 1e-12, "maxiter": 5000})
+    assert f.mu == pytest.approx(r.x[0], abs=1e-6) and f.sigma == pytest.approx(np.exp(r.x[1]), rel=1e-6)
+    assert f.loglik == pytest.approx(-r.fun, abs=1e-8)
+    # mean of the truncated normal: scipy.stats.truncnorm
+    m = f.conditional_mean(-1.0, 0.5)
+    assert m == pytest.approx(stats.truncnorm.mean((-1.0 - f.mu) / f.sigma, (0.5 - f.mu) / f.sigma,
+                                                   loc=f.mu, scale=f.sigma), rel=1e-9)
+
+
+def test_zero_limit_fits_and_round_trips():
+    x = np.round(np.random.default_rng(0).gamma(1.5, 1.0, 300), 1)
+    for t in (BoxCox(zero_limit=0.05).fit(x), Log(zero_limit=0.05).fit(x)):
+        p = t.params_
+        assert p["zero_limit"] == 0.05 and 0 < p["zero_value"] < 0.05
+        sub = substitute_zero_readings(t, x)
+        assert (sub[x == 0] == p["zero_value"]).all() and (sub[x > 0] == x[x > 0]).all()
+        with pytest.raises(DomainError):  # the transform itself still refuses a bare 0
+            t.transform(x)
+        back = transform_from_params(t.name, p)
+        assert back.params_ == pytest.approx(p)
+        assert (substitute_zero_readings(back, x) == sub).all()
+    # without zero readings nothing changes: the ordinary fit, no zero keys
+    assert set(BoxCox(zero_limit=0.05).fit(x[x > 0]).params_) == {"lambda", "shift", *LAMBDA_ESTIMATE_KEYS}
+    with pytest.raises(DomainError):
+        BoxCox(zero_limit=0.05).fit(np.r_[x, -0.1])  # negatives are still refused
+    for bad in (0.0, -1.0, "half", math.nan):
+        with pytest.raises(ConfigError, match="zero_limit"):
+            BoxCox(zero_limit=bad)
