@@ -887,9 +887,8 @@ def _set_zero_value(t: Transform, pos: np.ndarray, lam: float) -> None:
 def _zero_words(t: Transform) -> str:
     if getattr(t, "zero_value_", None) is None:
         return ""
-    who = f"{t.n_zero_} reading(s) of 0 were" if getattr(t, "n_zero_", 0) else "Readings of 0 are"
-    return (f" {who} fitted as values between 0 and {_fmt(t.zero_limit_)} "
-            f"(half the gauge step; censored likelihood) and stand at {_fmt(t.zero_value_)} on the chart")
+    return (f" Each reading of 0 is taken as a value between 0 and {_fmt(t.zero_limit_)} (censored) "
+            f"and stands at {_fmt(t.zero_value_)} on the transformed scale")
 
 
 def _zero_params(t: Transform) -> dict[str, float]:

@@ -209,7 +209,7 @@ def test_gauge_zeros_keep_log_and_boxcox_in_auto():
         assert fam[name].ok and math.isfinite(fam[name].aic)
         assert fam[name].params["zero_limit"] == pytest.approx(0.05)
         assert 0 < fam[name].params["zero_value"] < 0.05
-        assert "censored likelihood" in fam[name].description
+        assert "Each reading of 0 is taken as a value between 0 and 0.05 (censored)" in fam[name].description
     assert ch.name in ("log", "boxcox")  # gamma(1.5): a power transform, not a bounded Johnson fit
     assert "half a step; censored likelihood" in ch.reason
     assert "censored" in json.dumps(ch.to_dict(), allow_nan=True)
