@@ -267,6 +267,9 @@ def test_make_transform_unknown_name_lists_valid_ones():
 _POS = np.random.default_rng(21).gamma(2.0, 2.0, 400) + 0.5
 _MIXED = np.random.default_rng(22).normal(1.0, 3.0, 400)
 _LEFT = 20.0 - np.random.default_rng(23).gamma(2.0, 1.0, 400)
+#: gamma(1.5) recorded to 0.1: a few readings of 0 (fitted as censored with zero_limit = 0.05)
+_GAUGE = np.round(np.random.default_rng(0).gamma(1.5, 1.0, 300), 1)
+_GAUGE_POS = _GAUGE[_GAUGE > 0]
 
 
 def _all_transforms() -> list[tuple[str, Transform, np.ndarray]]:
@@ -277,8 +280,10 @@ def _all_transforms() -> list[tuple[str, Transform, np.ndarray]]:
     return [
         ("none", Identity().fit(_MIXED), _MIXED),
         ("log", Log().fit(_POS), _POS),
+        ("log_zero_censored", Log(zero_limit=0.05).fit(_GAUGE), _GAUGE_POS),
         ("log_threshold", Log(threshold="fit").fit(_POS), _POS),
         ("boxcox", BoxCox().fit(_POS), _POS),
+        ("boxcox_zero_censored", BoxCox(zero_limit=0.05).fit(_GAUGE), _GAUGE_POS),
         ("boxcox_negative_lambda", BoxCox().fit(np.exp(-_POS / 4) + 1.0 / _POS), np.exp(-_POS / 4) + 1.0 / _POS),
         ("boxcox_shift_auto", BoxCox(shift="auto").fit(_MIXED), _MIXED),
         ("yeojohnson", YeoJohnson().fit(_MIXED), _MIXED),
