@@ -98,7 +98,8 @@ NIST_FLOW = [49.6, 47.6, 49.9, 51.3, 47.8, 51.2, 52.6, 52.4, 53.6, 52.1]
 def test_nist_individuals_example():
     # NIST/SEMATECH e-Handbook 6.3.2 (from memory; arithmetic re-checked in REFERENCES.md):
     # mean 50.81, MR̄ 1.8778, UCL 55.80, LCL 45.82, moving-range UCL 6.13.
-    ch = control_chart(NIST_FLOW)
+    # the textbook moving-range limit D4·MR̄ belongs to the 3-sigma limits of the zone-rule sets
+    ch = control_chart(NIST_FLOW, rules="western_electric")
     assert ch.chart == "individuals" and ch.phase == "I"
     assert ch.center == pytest.approx(50.81, abs=5e-3)
     assert ch.dispersion.statistic == "moving_range"
@@ -113,6 +114,13 @@ def test_nist_individuals_example():
     assert ch.sigma_within == pytest.approx(1.8778 / 1.128, rel=1e-3)
     # overall sigma is the ordinary sample SD (numpy as second opinion)
     assert ch.sigma_overall == pytest.approx(np.std(NIST_FLOW, ddof=1))
+    # the default (beyond_limits): same centre and limits, moving range at its 0.1 % probability
+    # limit √2·σ·Φ⁻¹(0.9995) (MR/σ = √2·|Z|; scipy halfnorm as the second opinion)
+    dflt = control_chart(NIST_FLOW)
+    assert dflt.rules == "beyond_limits" and dflt.dispersion.limits == "probability"
+    assert dflt.ucl_value == ch.ucl_value and dflt.center == ch.center
+    assert dflt.dispersion.ucl_value == pytest.approx(math.sqrt(2) * stats.halfnorm.ppf(0.999) * ch.sigma_within)
+    assert dflt.dispersion.ucl_value == pytest.approx(4.654 * 1.8778 / 1.128, abs=5e-3)
     assert ch.grand_mean == pytest.approx(np.mean(NIST_FLOW))
     assert ch.n_values == ch.n_used == 10
     assert list(ch.labels) == list(range(1, 11))
@@ -149,7 +157,7 @@ def _flatten(groups):
 def test_xbar_r_matches_textbook_formulas():
     # Montgomery ch. 6: X̄̄ ± A2·R̄, R chart D3·R̄, R̄, D4·R̄ with the tabled n = 7 constants.
     values, labels = _flatten(XR)
-    ch = control_chart(values, labels, chart="xbar_r")
+    ch = control_chart(values, labels, chart="xbar_r", rules="western_electric")  # textbook 3-sigma D3/D4
     means = [np.mean(g) for g in XR]
     rbar = np.mean([max(g) - min(g) for g in XR])
     xbb = np.mean(means)
@@ -170,7 +178,7 @@ def test_xbar_r_matches_textbook_formulas():
 def test_xbar_s_matches_textbook_formulas():
     # Montgomery ch. 6: X̄̄ ± A3·s̄, s chart B3·s̄, s̄, B4·s̄ with the tabled n = 6 constants.
     values, labels = _flatten(XS)
-    ch = control_chart(values, labels, chart="xbar_s")
+    ch = control_chart(values, labels, chart="xbar_s", rules="western_electric")  # textbook 3-sigma B3/B4
     sbar = np.mean([np.std(g, ddof=1) for g in XS])
     xbb = np.mean(values)
     t = TABLE[6]
@@ -189,7 +197,7 @@ def test_unequal_sizes_xbar_s_pooled_sigma_and_per_subgroup_limits():
     # limits B3(n_i)c4(n_i)σ̂, B4(n_i)c4(n_i)σ̂ with the tabled constants.
     groups = [XS[0], XS[1][:4], XS[2][:5], XS[3], XS[4][:3]]
     values, labels = _flatten(groups)
-    ch = control_chart(values, labels, chart="xbar_s")
+    ch = control_chart(values, labels, chart="xbar_s", rules="western_electric")  # textbook 3-sigma B3/B4
     n = np.array([len(g) for g in groups])
     s = np.array([np.std(g, ddof=1) for g in groups])
     d = int((n - 1).sum())
@@ -213,7 +221,7 @@ def test_unequal_sizes_xbar_r_mean_of_scaled_ranges():
     # D3(n_i)·d2(n_i)·σ̂ and D4(n_i)·d2(n_i)·σ̂, tabled constants.
     groups = [XR[0], XR[1][:5], XR[2][:6], XR[3], XR[4][:4], XR[5]]
     values, labels = _flatten(groups)
-    ch = control_chart(values, labels)  # auto: largest subgroup 7 ≤ 9 -> X̄–R
+    ch = control_chart(values, labels, rules="western_electric")  # auto: largest subgroup 7 ≤ 9 -> X̄–R
     assert ch.chart == "xbar_r"
     n = [len(g) for g in groups]
     sigma = np.mean([(max(g) - min(g)) / TABLE[len(g)][D2] for g in groups])
@@ -299,7 +307,9 @@ def _reference_rules(z, rules):
 
     for i in range(len(z)):
         checks = {}
-        if rules == "western_electric":
+        if rules == "beyond_limits":
+            checks["L1"] = abs(z[i]) > 3
+        elif rules == "western_electric":
             checks["WE1"] = abs(z[i]) > 3
             checks["WE2"] = k_of_m(i, 2, 3, 2)
             checks["WE3"] = k_of_m(i, 4, 5, 1)
@@ -381,9 +391,11 @@ def test_phase_one_exclusion_individuals():
     # inflates MR̄; excluded, centre and MR̄ come from the others (definitions of
     # Montgomery ch. 6 computed by hand here).
     data = NIST_FLOW + [60.0, 52.0]
-    raw = control_chart(data)
+    raw = control_chart(data, rules="western_electric")
     assert any(v.rule == "WE1" and v.index == 10 for v in raw.violations)
-    ch = control_chart(data, exclude={10: "valve left open"})
+    # the default rule set names the same point with its rule 1 (L1)
+    assert [v.index for v in control_chart(data).violations if v.rule == "L1"] == [10]
+    ch = control_chart(data, exclude={10: "valve left open"}, rules="western_electric")
     keep = [x for i, x in enumerate(data) if i != 10]
     assert ch.center == pytest.approx(np.mean(keep))
     mrs = [abs(data[i] - data[i - 1]) for i in range(1, len(data)) if 10 not in (i, i - 1)]
@@ -441,7 +453,7 @@ def test_phase_two_does_not_reestimate(rng):
     base = p1.to_baseline()
     assert base.subgroup_size is None
     shifted = rng.normal(12.5, 1, 30)
-    p2 = control_chart(shifted, baseline=base)
+    p2 = control_chart(shifted, baseline=base, rules="western_electric")
     assert p2.center == base.center and p2.sigma_within == base.sigma_within
     assert not p2.in_control and any(v.rule in ("WE1", "WE2", "WE4") for v in p2.violations)
     assert p2.grand_mean == pytest.approx(shifted.mean())  # description of the new data
@@ -522,7 +534,7 @@ def test_moving_range_beyond_its_limit_is_a_signal():
     data = [10.0, 10.3, 9.9, 10.2, 9.8, 10.1, 10.4, 9.9, 10.0, 10.2] * 2
     data[12] = 10.2 + 2.5
     data[13] = 10.2 - 2.5
-    ch = control_chart(data)
+    ch = control_chart(data, rules="western_electric")
     mr = np.abs(np.diff(data))
     ucl = 3.267 * mr.mean()
     expected = {i + 1 for i in np.flatnonzero(mr > ucl)}
@@ -566,7 +578,7 @@ def test_too_few_points():
 def test_unknown_names_list_the_choices():
     with pytest.raises(ConfigError, match="'auto', 'individuals', 'xbar_r', 'xbar_s'"):
         control_chart([1.0, 2.0, 3.0], chart="p_chart")
-    with pytest.raises(ConfigError, match="'western_electric', 'nelson'"):
+    with pytest.raises(ConfigError, match="'beyond_limits', 'western_electric', 'nelson'"):
         control_chart([1.0, 2.0, 3.0], rules="westgard")
     assert set(CHARTS) == {"auto", "individuals", "xbar_r", "xbar_s"}
 
