@@ -1125,7 +1125,8 @@ def false_alarm_rate(
                          "(independent of the subgroup means for normal data)")
     over = 1.0 - (float(surv[n]) if n <= _SURVIVAL_STEPS else float(surv[-1] * tail ** (n - _SURVIVAL_STEPS)))
     arl = float(surv.sum() + (surv[-1] * tail / (1.0 - tail) if tail < 1.0 else math.inf))
-    method = "; ".join(parts) + "; in-control process with known centre and sigma"
+    method = ("; ".join(parts) + "; in-control process with known centre and sigma (limits estimated "
+              "from the same data, Phase I, alarm somewhat less often)")
     return FalseAlarmRate(rules=rules, chart=chart, n=n, per_point=1.0 / arl,
                           over_n=min(max(over, 0.0), 1.0), arl=arl, method=method)
 
