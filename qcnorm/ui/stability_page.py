@@ -21,7 +21,7 @@ CHART_LABELS = {
     "xbar_s": "Subgroup mean and standard deviation (X̄–S)",
 }
 RULE_LABELS = {
-    "beyond_limits": "Beyond the limits (a point outside the control limits)",
+    "beyond_limits": "Beyond the limits (rule 1; default)",
     "western_electric": "Western Electric (4 zone rules)",
     "nelson": "Nelson (8 tests)",
 }
