@@ -25,8 +25,8 @@ from .control import ChartBaseline, ControlChart, UnitsLimits, control_chart, li
 from .distributions import DistributionRanking, fit_distributions, percentile_capability
 from .errors import ConfigError, DataError, QcnormError
 from .normality import NormalityReport, normality_report
-from .selection import TransformChoice, choose_transform
-from .transforms import Transform, transform_from_params
+from .selection import ZERO_CHOICES, TransformChoice, choose_transform
+from .transforms import Transform, substitute_zero_readings, transform_from_params
 
 __all__ = ["analyze", "Analysis", "Baseline", "Settings", "TRANSFORM_CHOICES", "CHART_CHOICES", "RULE_CHOICES"]
 
@@ -86,6 +86,7 @@ class Settings(Result):
     baseline: Baseline | None
     round_lambda: bool
     confidence: float
+    zeros: str = "censor"
 
 
 @dataclass(frozen=True, slots=True)
@@ -173,6 +174,7 @@ class Analysis(Result):
                 "description": self.transform.describe(),
                 "candidates": [] if tc is None else [to_jsonable(c) for c in tc.candidates],
                 "spread_level": None if tc is None else to_jsonable(tc.spread_level),
+                "zero_handling": None if tc is None or tc.zero_handling is None else to_jsonable(tc.zero_handling),
             },
             "normality": {
                 "raw": self.normality_raw.to_dict(),
@@ -311,6 +313,7 @@ def analyze(
     required_index: float = 1.33,
     round_lambda: bool = True,
     confidence: float = 0.95,
+    zeros: str = "censor",
     rows: Sequence[int] | None = None,
     characteristic: str | None = None,
     units: str | None = None,
@@ -337,6 +340,15 @@ def analyze(
         its center and sigma are used for the limits.
     required_index : float
         The capability index the verdict is judged against (default 1.33).
+    round_lambda : bool
+        Round the Box–Cox λ to −1, −0.5, 0, 0.5, 1 or 2 when that value lies inside its 95 %
+        interval (default); False uses the maximum-likelihood λ as estimated. Either way
+        ``transform.params`` carries ``lambda_mle``, ``lambda_ci_low`` and ``lambda_ci_high``.
+    zeros : {"censor", "exclude"}
+        Readings of 0 that look like small values rounded by the gauge: "censor" (default)
+        fits them as values between 0 and half the gauge step, so log and Box–Cox stay
+        candidates; "exclude" keeps them as zeros (log and Box–Cox then not applicable).
+        See :func:`qcnorm.selection.choose_transform`; JSON ``transform.zero_handling``.
 
     Returns
     -------
@@ -411,6 +423,7 @@ def analyze(
     if lsl is not None and usl is not None and lsl >= usl:
         raise ConfigError(f"The lower spec limit ({lsl:g}) must be below the upper spec limit ({usl:g}).")
     check_choice(transform, TRANSFORM_CHOICES, "transform", func)
+    check_choice(zeros, ZERO_CHOICES, "zeros", func)
     check_choice(chart, CHART_CHOICES, "chart", func)
     check_choice(rules, RULE_CHOICES, "rules", func)
     if isinstance(baseline, Mapping):
@@ -442,7 +455,7 @@ def analyze(
     else:
         cands = "auto" if transform == "auto" else transform
         choice = choose_transform(x, candidates=cands, subgroups=subgroups, round_lambda=round_lambda,
-                                  _sorted=xs, _ad_out=ads)
+                                  zeros=zeros, _sorted=xs, _ad_out=ads)
         tr = choice.transform
         reason = choice.reason
         if transform == "auto" and _spec_beyond_fitted_bound(tr, lsl, usl):
@@ -455,7 +468,10 @@ def analyze(
                     f"covers the spec limits is used instead: {alt.description or alt.name}"
                 )
                 tr = alt.transform
-    y = tr.transform(x)
+    # A log/Box–Cox fitted with readings of 0 as censored values (or a baseline frozen from
+    # one) places each such reading at its fitted stand-in value; x itself is kept as read.
+    x_t = substitute_zero_readings(tr, x)
+    y = tr.transform(x_t)
 
     # 2. Normality before and after.
     # speed: Anderson–Darling of x and of T(x) were computed for the candidates; reused (private)
@@ -466,7 +482,7 @@ def analyze(
         norm_t = norm_raw
     else:
         # speed: the transform is increasing, so T(sorted x) is sorted y (checked; else sort)
-        ys = tr.transform(xs)
+        ys = tr.transform(substitute_zero_readings(tr, xs))
         if not bool(np.all(ys[1:] >= ys[:-1])):
             ys = np.sort(y)
         norm_t = normality_report(y, _sorted=ys, _ad=ad_of.get(id(tr)))
@@ -560,7 +576,7 @@ def analyze(
     settings = Settings(
         lsl=lsl, usl=usl, target=target, transform=transform, chart=chart, rules=rules,
         required_index=required_index, exclude=excl, baseline=baseline,
-        round_lambda=round_lambda, confidence=confidence,
+        round_lambda=round_lambda, confidence=confidence, zeros=zeros,
     )
     return Analysis(
         n=n, values=x, transformed=y, subgroups=subgroups, rows=row_numbers, settings=settings,
