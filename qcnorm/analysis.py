@@ -24,6 +24,8 @@ from .capability import Capability, capability
 from .control import ChartBaseline, ControlChart, UnitsLimits, control_chart, limits_in_units
 from .distributions import DistributionRanking, fit_distributions, percentile_capability
 from .errors import ConfigError, DataError, QcnormError
+from .modelrange import apply_model_range
+from .modelrange import model_range as _model_range
 from .normality import NormalityReport, normality_report
 from .selection import TransformChoice, choose_transform
 from .transforms import Transform, transform_from_params
@@ -86,6 +88,7 @@ class Settings(Result):
     baseline: Baseline | None
     round_lambda: bool
     confidence: float
+    model_range: bool = True
 
 
 @dataclass(frozen=True, slots=True)
@@ -314,6 +317,7 @@ def analyze(
     rows: Sequence[int] | None = None,
     characteristic: str | None = None,
     units: str | None = None,
+    model_range: bool = True,
 ) -> Analysis:
     """Analyse one characteristic: transform, normality, control limits, capability.
 
@@ -337,6 +341,11 @@ def analyze(
         its center and sigma are used for the limits.
     required_index : float
         The capability index the verdict is judged against (default 1.33).
+    model_range : bool, default True
+        Evaluate ppm and Ppk under every fitted transform and distribution
+        (``capability.model_range``) and base the verdict on the most pessimistic
+        adequate model (:mod:`qcnorm.modelrange`). False keeps the chosen transform's
+        verdict alone (used by the benchmark to show the extra cost).
 
     Returns
     -------
@@ -545,6 +554,15 @@ def analyze(
             perc = percentile_capability(dists.best, lsl=lsl, usl=usl)
     except QcnormError as exc:
         warnings.append(f"No distribution could be fitted for the percentile cross-check: {exc}")
+    if cap is not None and model_range:
+        # the verdict across adequate models: fitted objects reused, only the limits evaluated
+        mr = _model_range(
+            xs, cap, tr, candidates=() if choice is None else choice.candidates, distributions=dists,
+            percentile=perc, chosen_ad_p=norm_t.ad_p_value, chosen_ad_statistic=norm_t.ad_statistic,
+        )
+        cap = apply_model_range(cap, mr)
+        if mr.model_dependent or (cap.route_verdict != cap.verdict):
+            warnings.append(f"{mr.summary_text} {mr.verdict_basis}".strip())
 
     # Exclusions: rows dropped at reading, then chart points excluded as assignable causes.
     excluded = list(ingest_excluded)
@@ -560,7 +578,7 @@ def analyze(
     settings = Settings(
         lsl=lsl, usl=usl, target=target, transform=transform, chart=chart, rules=rules,
         required_index=required_index, exclude=excl, baseline=baseline,
-        round_lambda=round_lambda, confidence=confidence,
+        round_lambda=round_lambda, confidence=confidence, model_range=bool(model_range),
     )
     return Analysis(
         n=n, values=x, transformed=y, subgroups=subgroups, rows=row_numbers, settings=settings,

@@ -46,6 +46,7 @@ from scipy.special import (
 
 from ._results import Result
 from ._validation import check_optional_float, check_sample
+from .capability import distribution_support, side_status
 from .errors import ConfigError, DataError, DomainError
 from .normality import _log_phi_pair_sorted, _trusted_sorted_ok, _vdot, anderson_darling_a2
 
@@ -198,6 +199,12 @@ class PercentileCapability(Result):
         Fitted parts per million outside the limits (total and per side).
     method : str
         The method in words.
+    lower_side, upper_side : str
+        What each limit means under the fitted model (the one-sided rule shared with the
+        transform route, :func:`qcnorm.capability.side_status`). A side that
+        ``"cannot_fail"`` is left out of Pp/Ppk and its ppm is 0 (never the governing index).
+    notes : tuple of str
+        Plain-words remarks (a side that cannot fail, a limit beyond a fitted bound).
     """
 
     distribution: str
@@ -214,6 +221,9 @@ class PercentileCapability(Result):
     ppm_below: float | None
     ppm_above: float | None
     method: str = "percentile method (ISO 22514-2; Clements 1989)"
+    lower_side: str = "absent"
+    upper_side: str = "absent"
+    notes: tuple[str, ...] = ()
 
 
 # --------------------------------------------------------------------------------------
@@ -842,20 +852,37 @@ def percentile_capability(
         )
     q_lo = float(ndtr(-3.0))
     x_low, x_med, x_high = (float(v) for v in fit.ppf([q_lo, 0.5, 1.0 - q_lo]))
-    pp = None if (lsl is None or usl is None) else (usl - lsl) / (x_high - x_low)
-    ppu = None if usl is None else (usl - x_med) / (x_high - x_med)
-    ppl = None if lsl is None else (x_med - lsl) / (x_med - x_low)
+    # The one-sided rule shared with the transform route: a limit where the model puts
+    # zero probability because of a PHYSICAL bound (LSL ≤ 0 for a positive family) is
+    # "cannot fail" and leaves the indices; one beyond a fitted bound (the lognormal3
+    # threshold) stays in them (its PPL is a finite, honest number).
+    sup = distribution_support(fit.name, fit.params)
+    lo_side = side_status(sup, lsl, "lower")
+    hi_side = side_status(sup, usl, "upper")
+    lo_in = lsl is not None and lo_side != "cannot_fail"
+    hi_in = usl is not None and hi_side != "cannot_fail"
+    notes: list[str] = []
+    for lim, side, label, word in ((lsl, lo_side, "LSL", "below"), (usl, hi_side, "USL", "above")):
+        if side == "cannot_fail":
+            notes.append(f"{label} {lim:g} lies where the fitted {fit.name} distribution puts no probability "
+                         f"(a physical bound): no product can fall {word} it, so that side is not assessed.")
+        elif side == "beyond_fitted_bound":
+            notes.append(f"{label} {lim:g} lies beyond the threshold fitted to the data: the model shows no "
+                         "risk there, but a fitted bound is not a physical limit.")
+    pp = (usl - lsl) / (x_high - x_low) if (lo_in and hi_in) else None
+    ppu = (usl - x_med) / (x_high - x_med) if hi_in else None
+    ppl = (x_med - lsl) / (x_med - x_low) if lo_in else None
     sides = [v for v in (ppu, ppl) if v is not None]
     ppk = min(sides) if sides else None
 
     below = above = total = None
     logs = []
     if lsl is not None:
-        lb = float(fit.logcdf(lsl)) + _LN_1E6
+        lb = float(fit.logcdf(lsl)) + _LN_1E6 if lo_in else -math.inf
         below = math.exp(lb)
         logs.append(lb)
     if usl is not None:
-        la = float(fit.logsf(usl)) + _LN_1E6
+        la = float(fit.logsf(usl)) + _LN_1E6 if hi_in else -math.inf
         above = math.exp(la)
         logs.append(la)
     if logs:
@@ -874,4 +901,7 @@ def percentile_capability(
         ppm_expected=total,
         ppm_below=below,
         ppm_above=above,
+        lower_side=lo_side,
+        upper_side=hi_side,
+        notes=tuple(notes),
     )
