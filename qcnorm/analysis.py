@@ -549,7 +549,9 @@ def analyze(
     try:
         log_c = ads.get("log")  # its A² is that of ln x only without a shift
         ad_ln = log_c[1] if log_c is not None and log_c[0].params_.get("shift") == 0.0 else None
-        dists = fit_distributions(x, _sorted=xs, _case3={"normal": ad_x, "lognormal": ad_ln})
+        res = norm_raw.resolution
+        dists = fit_distributions(x, _sorted=xs, _case3={"normal": ad_x, "lognormal": ad_ln},
+                                  _zero_step=float(res.step) if res.coarse or xs[0] == 0.0 else None)
         if cap is not None and dists.best is not None:
             perc = percentile_capability(dists.best, lsl=lsl, usl=usl)
     except QcnormError as exc:
@@ -559,6 +561,7 @@ def analyze(
         mr = _model_range(
             xs, cap, tr, candidates=() if choice is None else choice.candidates, distributions=dists,
             percentile=perc, chosen_ad_p=norm_t.ad_p_value, chosen_ad_statistic=norm_t.ad_statistic,
+            coarse=bool(norm_raw.resolution.coarse),
         )
         cap = apply_model_range(cap, mr)
         if mr.model_dependent or (cap.route_verdict != cap.verdict):

@@ -25,6 +25,7 @@ Pp / Ppk from its 0.135 %, 50 % and 99.865 % quantiles.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
@@ -742,6 +743,7 @@ def fit_distributions(
     *,
     _sorted: np.ndarray | None = None,
     _case3: dict | None = None,
+    _zero_step: float | None = None,
 ) -> DistributionRanking:
     """Fit several families to the same data and rank them by AIC.
 
@@ -783,11 +785,28 @@ def fit_distributions(
         xs = np.sort(check_sample(x, "x", func, min_n=FIT_MIN_N))  # the usual messages
     fits: list[DistributionFit] = []
     skipped: list[tuple[str, str]] = []
+    # ``_zero_step`` (private, for analyze()): the gauge step h of rounded readings. A
+    # reading of exactly 0 with no negative value is then a rounded small value in
+    # [0, h/2); the positive families are fitted with it at h/4, the middle of that
+    # interval (a midpoint for interval-censored values; common practice), and say so.
+    xs_pos, zero_note = xs, ""
+    if _zero_step is not None and _zero_step > 0 and xs[0] == 0.0:
+        k = int(np.searchsorted(xs, 0.0, side="right"))
+        if k < xs.size and xs[k] > 0.0:
+            xs_pos = xs.copy()
+            xs_pos[:k] = _zero_step / 4.0
+            zero_note = (f" {k} reading(s) of 0 were taken as {_zero_step / 4.0:g}, the middle of their rounding "
+                         f"interval 0 to {_zero_step / 2.0:g} (gauge step {_zero_step:g}).")
     for nm in dict.fromkeys(chosen):
+        use_pos = zero_note and _FAMILIES[nm].support == "positive"
         try:
             # ``_case3`` (private, for analyze()): {"normal": ADResult of x, "lognormal":
             # ADResult of ln x} (case 3 of the normal test), already computed elsewhere.
-            fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
+            if use_pos:
+                f = _fit_sorted(nm, xs_pos)
+                fits.append(dataclasses.replace(f, note=f.note + zero_note))
+            else:
+                fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
         except DataError as exc:  # includes DomainError
             skipped.append((nm, str(exc)))
     if not fits:

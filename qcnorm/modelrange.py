@@ -288,6 +288,7 @@ def model_range(
     percentile: Any = None,
     chosen_ad_p: float | None = None,
     chosen_ad_statistic: float | None = None,
+    coarse: bool = False,
 ) -> ModelRange:
     """ppm and Ppk under every fitted model, and the verdict across them.
 
@@ -309,6 +310,10 @@ def model_range(
     chosen_ad_p, chosen_ad_statistic : float, optional
         Anderson–Darling of the chosen transform's values when it is not among
         ``candidates`` (a frozen baseline).
+    coarse : bool
+        The resolution check found the readings coarse (many ties). Ties alone make the
+        Anderson–Darling test reject (D'Agostino & Stephens 1986 assume continuous data),
+        so adequacy then rests on the AIC window only, and the reason says so.
 
     Returns
     -------
@@ -384,6 +389,9 @@ def model_range(
                 f" ≤ {A2_CRITICAL}" if ad_ok else f" > {A2_CRITICAL} (5 % critical value)")
         else:
             ad_ok, ad_words = False, "no Anderson–Darling result"
+        if coarse and not ad_ok:
+            ad_ok = True
+            ad_words += " (not counted: coarse readings make the test reject through ties alone)"
         aic_ok = d_aic is None or d_aic <= DELTA_AIC_WINDOW
         aic_words = "AIC not compared (frozen baseline)" if d_aic is None else (
             f"ΔAIC {d_aic:.1f}" + ("" if aic_ok else f" > {DELTA_AIC_WINDOW:g}"))
