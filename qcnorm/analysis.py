@@ -565,7 +565,7 @@ def analyze(
         )
         cap = apply_model_range(cap, mr)
         if mr.model_dependent or (cap.route_verdict != cap.verdict):
-            warnings.append(f"{mr.summary_text} {mr.verdict_basis}".strip())
+            warnings.append(mr.summary_text + (" Model-dependent: collect more data." if mr.model_dependent else ""))
 
     # Exclusions: rows dropped at reading, then chart points excluded as assignable causes.
     excluded = list(ingest_excluded)

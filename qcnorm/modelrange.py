@@ -483,7 +483,8 @@ def _decide(figs: list[ModelFigures], cap: Capability) -> ModelRange:
                    f"transform ({_fmt_ppm(lo_ppm)} ppm {side_words}), which itself does not: treat them as "
                    "approximate.")
     elif model_dependent or (lo_ppm is not None and hi_ppm > 3 * lo_ppm + 1):
-        summary = (f"Adequate models disagree: {_fmt_ppm(lo_ppm)} to {_fmt_ppm(hi_ppm)} ppm {side_words}, "
+        who = "Adequate models" if not fallback else "The models considered"
+        summary = (f"{who} disagree: {_fmt_ppm(lo_ppm)} to {_fmt_ppm(hi_ppm)} ppm {side_words}, "
                    f"Ppk {min(ppks):.2f} to {max(ppks):.2f}. The verdict uses the most pessimistic.")
     else:
         summary = (f"The {len(pool)} adequate models agree: {_fmt_ppm(lo_ppm)} to {_fmt_ppm(hi_ppm)} ppm "
