@@ -272,3 +272,26 @@ def test_pessimistic_ppm_not_far_below_the_truth(name, n):
         assert basis.ppm >= truth / TOLERANCE[n], (name, n, seed, basis.model, basis.ppm)
         # the true Ppk (≈ 1.03) is below the required 1.33: never "meets"
         assert cap.verdict != "meets", (name, n, seed)
+
+
+@pytest.mark.parametrize("name", ["normal", "lognormal", "lognormal3", "weibull", "gamma", "exponential"])
+def test_percentile_figures_equal_scipy(name):
+    """percentile_capability's closed-form quantiles and tails equal scipy.stats' frozen
+    distribution (norm, lognorm, weibull_min, gamma, expon) — scipy as the reference."""
+    x = np.random.default_rng(RNG_SEED).gamma(4.0, 1.0, 400) + 0.5
+    f = fit_distribution(x, name)
+    pr = f.params
+    ref = {
+        "normal": lambda: stats.norm(pr.get("mean"), pr.get("sigma")),
+        "lognormal": lambda: stats.lognorm(pr["sigma"], scale=math.exp(pr["mu"])),
+        "lognormal3": lambda: stats.lognorm(pr["sigma"], loc=pr["threshold"], scale=math.exp(pr["mu"])),
+        "weibull": lambda: stats.weibull_min(pr["shape"], scale=pr["scale"]),
+        "gamma": lambda: stats.gamma(pr["shape"], scale=pr["scale"]),
+        "exponential": lambda: stats.expon(scale=pr["scale"]),
+    }[name]()
+    lsl, usl = 1.0, 14.0
+    pc = percentile_capability(f, lsl=lsl, usl=usl)
+    q = stats.norm.cdf([-3.0, 0.0, 3.0])
+    assert [pc.x_low, pc.x_median, pc.x_high] == pytest.approx(list(ref.ppf(q)), rel=1e-9)
+    assert pc.ppm_below == pytest.approx(1e6 * ref.cdf(lsl), rel=1e-8, abs=1e-12)
+    assert pc.ppm_above == pytest.approx(1e6 * ref.sf(usl), rel=1e-8, abs=1e-12)
