@@ -11,6 +11,7 @@ none of them computes a statistic of its own.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, ClassVar
@@ -549,9 +550,13 @@ def analyze(
     try:
         log_c = ads.get("log")  # its A² is that of ln x only without a shift
         ad_ln = log_c[1] if log_c is not None and log_c[0].params_.get("shift") == 0.0 else None
-        res = norm_raw.resolution
+        # readings of 0 on a gauge grid (every value a whole number of steps) are rounded small
+        # values: the positive families take them at h/4 (distributions.fit_distributions)
+        step = float(norm_raw.resolution.step)
+        on_grid = (xs[0] == 0.0 and step > 0.0 and math.isfinite(step)
+                   and bool(np.all(np.abs(xs / step - np.round(xs / step)) < 1e-6)))
         dists = fit_distributions(x, _sorted=xs, _case3={"normal": ad_x, "lognormal": ad_ln},
-                                  _zero_step=float(res.step) if res.coarse or xs[0] == 0.0 else None)
+                                  _zero_step=step if on_grid else None)
         if cap is not None and dists.best is not None:
             perc = percentile_capability(dists.best, lsl=lsl, usl=usl)
     except QcnormError as exc:
