@@ -512,17 +512,18 @@ def _decide(figs: list[ModelFigures], cap: Capability) -> ModelRange:
 def apply_model_range(cap: Capability, mr: ModelRange) -> Capability:
     """The Capability with its verdict based on the model range (fields added, none renamed).
 
-    ``route_verdict`` keeps the transform route's own verdict; ``verdict``,
-    ``verdict_point``, ``verdict_lower_bound``, ``verdict_index_name``, ``verdict_model``
-    and ``verdict_text`` follow the most pessimistic adequate model.
+    ``route_verdict`` keeps the transform route's own verdict. When the most pessimistic
+    adequate model gives a different verdict, ``verdict``, ``verdict_point``,
+    ``verdict_lower_bound``, ``verdict_index_name``, ``verdict_model`` and ``verdict_text``
+    follow that model; when it gives the same verdict, the chosen transform's figures stay
+    and the text adds the range.
     """
     import dataclasses
 
     basis = next((m for m in mr.models if m.model == mr.basis_model and m.route == mr.basis_route), None)
     if basis is None or cap.verdict == "not_assessed":
         return dataclasses.replace(cap, model_range=mr)
-    same = basis.chosen and mr.verdict == cap.verdict
-    if same:
+    if mr.verdict == cap.verdict:  # the chosen transform's figures already give this verdict: keep them
         text = cap.verdict_text
         if mr.summary_text and len(mr.models) > 1:
             text += " " + mr.summary_text
