@@ -11,7 +11,6 @@ none of them computes a statistic of its own.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, ClassVar
@@ -28,8 +27,8 @@ from .errors import ConfigError, DataError, QcnormError
 from .modelrange import apply_model_range
 from .modelrange import model_range as _model_range
 from .normality import NormalityReport, normality_report
-from .selection import TransformChoice, choose_transform
-from .transforms import Transform, transform_from_params
+from .selection import ZERO_CHOICES, TransformChoice, choose_transform, gauge_zero_step
+from .transforms import Transform, substitute_zero_readings, transform_from_params
 
 __all__ = ["analyze", "Analysis", "Baseline", "Settings", "TRANSFORM_CHOICES", "CHART_CHOICES", "RULE_CHOICES"]
 
@@ -89,6 +88,7 @@ class Settings(Result):
     baseline: Baseline | None
     round_lambda: bool
     confidence: float
+    zeros: str = "censor"
     model_range: bool = True
 
 
@@ -177,6 +177,7 @@ class Analysis(Result):
                 "description": self.transform.describe(),
                 "candidates": [] if tc is None else [to_jsonable(c) for c in tc.candidates],
                 "spread_level": None if tc is None else to_jsonable(tc.spread_level),
+                "zero_handling": None if tc is None or tc.zero_handling is None else to_jsonable(tc.zero_handling),
             },
             "normality": {
                 "raw": self.normality_raw.to_dict(),
@@ -315,6 +316,7 @@ def analyze(
     required_index: float = 1.33,
     round_lambda: bool = True,
     confidence: float = 0.95,
+    zeros: str = "censor",
     rows: Sequence[int] | None = None,
     characteristic: str | None = None,
     units: str | None = None,
@@ -347,6 +349,15 @@ def analyze(
         (``capability.model_range``) and base the verdict on the most pessimistic
         adequate model (:mod:`qcnorm.modelrange`). False keeps the chosen transform's
         verdict alone (used by the benchmark to show the extra cost).
+    round_lambda : bool
+        Round the Box–Cox λ to −1, −0.5, 0, 0.5, 1 or 2 when that value lies inside its 95 %
+        interval (default); False uses the maximum-likelihood λ as estimated. Either way
+        ``transform.params`` carries ``lambda_mle``, ``lambda_ci_low`` and ``lambda_ci_high``.
+    zeros : {"censor", "exclude"}
+        Readings of 0 that look like small values rounded by the gauge: "censor" (default)
+        fits them as values between 0 and half the gauge step, so log and Box–Cox stay
+        candidates; "exclude" keeps them as zeros (log and Box–Cox then not applicable).
+        See :func:`qcnorm.selection.choose_transform`; JSON ``transform.zero_handling``.
 
     Returns
     -------
@@ -421,6 +432,7 @@ def analyze(
     if lsl is not None and usl is not None and lsl >= usl:
         raise ConfigError(f"The lower spec limit ({lsl:g}) must be below the upper spec limit ({usl:g}).")
     check_choice(transform, TRANSFORM_CHOICES, "transform", func)
+    check_choice(zeros, ZERO_CHOICES, "zeros", func)
     check_choice(chart, CHART_CHOICES, "chart", func)
     check_choice(rules, RULE_CHOICES, "rules", func)
     if isinstance(baseline, Mapping):
@@ -452,7 +464,7 @@ def analyze(
     else:
         cands = "auto" if transform == "auto" else transform
         choice = choose_transform(x, candidates=cands, subgroups=subgroups, round_lambda=round_lambda,
-                                  _sorted=xs, _ad_out=ads)
+                                  zeros=zeros, _sorted=xs, _ad_out=ads)
         tr = choice.transform
         reason = choice.reason
         if transform == "auto" and _spec_beyond_fitted_bound(tr, lsl, usl):
@@ -465,7 +477,10 @@ def analyze(
                     f"covers the spec limits is used instead: {alt.description or alt.name}"
                 )
                 tr = alt.transform
-    y = tr.transform(x)
+    # A log/Box–Cox fitted with readings of 0 as censored values (or a baseline frozen from
+    # one) places each such reading at its fitted stand-in value; x itself is kept as read.
+    x_t = substitute_zero_readings(tr, x)
+    y = tr.transform(x_t)
 
     # 2. Normality before and after.
     # speed: Anderson–Darling of x and of T(x) were computed for the candidates; reused (private)
@@ -476,7 +491,7 @@ def analyze(
         norm_t = norm_raw
     else:
         # speed: the transform is increasing, so T(sorted x) is sorted y (checked; else sort)
-        ys = tr.transform(xs)
+        ys = tr.transform(substitute_zero_readings(tr, xs))
         if not bool(np.all(ys[1:] >= ys[:-1])):
             ys = np.sort(y)
         norm_t = normality_report(y, _sorted=ys, _ad=ad_of.get(id(tr)))
@@ -550,13 +565,12 @@ def analyze(
     try:
         log_c = ads.get("log")  # its A² is that of ln x only without a shift
         ad_ln = log_c[1] if log_c is not None and log_c[0].params_.get("shift") == 0.0 else None
-        # readings of 0 on a gauge grid (every value a whole number of steps) are rounded small
-        # values: the positive families take them at h/4 (distributions.fit_distributions)
-        step = float(norm_raw.resolution.step)
-        on_grid = (xs[0] == 0.0 and step > 0.0 and math.isfinite(step)
-                   and bool(np.all(np.abs(xs / step - np.round(xs / step)) < 1e-6)))
+        # readings of 0 that the gauge rule (selection.gauge_zero_step) calls rounded small values:
+        # the positive families take them at h/4 (distributions.fit_distributions), unless the
+        # user asked to keep zeros as zeros
+        zstep = gauge_zero_step(xs) if zeros == "censor" else None
         dists = fit_distributions(x, _sorted=xs, _case3={"normal": ad_x, "lognormal": ad_ln},
-                                  _zero_step=step if on_grid else None)
+                                  _zero_step=zstep)
         if cap is not None and dists.best is not None:
             perc = percentile_capability(dists.best, lsl=lsl, usl=usl)
     except QcnormError as exc:
@@ -586,7 +600,7 @@ def analyze(
     settings = Settings(
         lsl=lsl, usl=usl, target=target, transform=transform, chart=chart, rules=rules,
         required_index=required_index, exclude=excl, baseline=baseline,
-        round_lambda=round_lambda, confidence=confidence, model_range=bool(model_range),
+        round_lambda=round_lambda, confidence=confidence, zeros=zeros, model_range=bool(model_range),
     )
     return Analysis(
         n=n, values=x, transformed=y, subgroups=subgroups, rows=row_numbers, settings=settings,

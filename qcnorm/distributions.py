@@ -790,7 +790,8 @@ def fit_distributions(
     # ``_zero_step`` (private, for analyze()): the gauge step h of rounded readings. A
     # reading of exactly 0 with no negative value is then a rounded small value in
     # [0, h/2); the positive families are fitted with it at h/4, the middle of that
-    # interval (a midpoint for interval-censored values; common practice), and say so.
+    # interval (a midpoint for interval-censored values; common practice), their likelihood
+    # counts it as censored in (0, h/2] like the transform candidates', and say so.
     xs_pos, zero_note = xs, ""
     if _zero_step is not None and _zero_step > 0 and xs[0] == 0.0:
         k = int(np.searchsorted(xs, 0.0, side="right"))
@@ -806,7 +807,14 @@ def fit_distributions(
             # ADResult of ln x} (case 3 of the normal test), already computed elsewhere.
             if use_pos:
                 f = _fit_sorted(nm, xs_pos)
-                fits.append(dataclasses.replace(f, note=f.note + zero_note))
+                # Likelihood as the transform candidates score censored zeros (selection.py):
+                # each 0 reading enters as ln P(0 < X ≤ h/2), not as a density at h/4, so the
+                # AICs of both routes stay comparable.
+                k0 = int(np.count_nonzero(xs == 0.0))
+                half = _zero_step / 2.0
+                ll = f.loglik - k0 * float(f.logpdf(_zero_step / 4.0)) + k0 * float(f.logcdf(half))
+                fits.append(dataclasses.replace(f, loglik=ll, aic=2.0 * f.n_params - 2.0 * ll,
+                                                note=f.note + zero_note))
             else:
                 fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
         except DataError as exc:  # includes DomainError

@@ -34,7 +34,8 @@ import pandas as pd
 from scipy.special import ndtri
 
 from ._results import Result
-from .capability import Capability, _ppm_sides, side_status, transform_support, distribution_support
+from .capability import Capability, _ppm_sides, distribution_support, side_status, transform_support
+from .transforms import substitute_zero_readings
 
 __all__ = [
     "ModelFigures",
@@ -411,8 +412,10 @@ def model_range(
 
 def _transform_figures(t, xs, lsl, usl, row, n, req, conf) -> dict[str, Any]:
     """Ppk and ppm (overall sigma) of a non-chosen transform candidate at the limits."""
+    # fitted on xs, so every value is inside the domain; readings of 0 fitted as censored
+    # (log/Box–Cox) sit at the transform's stand-in value, as for the chosen transform
     with np.errstate(all="ignore"):
-        y = t._forward(xs)  # fitted on xs, so every value is inside the domain
+        y = t._forward(substitute_zero_readings(t, xs))
     mu = float(y.mean())
     sd = float(y.std(ddof=1))
     lo = hi = None

@@ -249,12 +249,14 @@ PROCESSES = {
 }
 
 # Tolerance from sampling variability, measured in development with these generators
-# (ratio = ppm of the model the verdict rests on / true ppm): n = 300, 40 seeds per
-# process: smallest 0.13, medians 2.0–2.8; n = 3,000, 15 seeds: smallest 0.63, medians
-# 0.92–1.08. The tail 1,000 ppm beyond the USL is 0.3 expected values at n = 300, so the
-# fitted tail varies by a factor of several; the bound is set below the smallest ratio
-# seen (1/10 at n = 300, 1/2 at n = 3,000), with fixed seeds so the test is repeatable.
-TOLERANCE = {300: 10.0, 3000: 2.0}
+# (ratio = ppm of the model the verdict rests on / true ppm), readings of 0 censored:
+# n = 300, 20 seeds per process: smallest 0.055 (gamma), 0.34 (lognormal), 0.17 (Weibull),
+# medians 2.0–3.1; n = 3,000, 8 seeds: smallest 0.84, medians 1.0–4.8. At n = 300 the
+# 1,000 ppm beyond the USL are 0.3 expected values, so a fitted tail varies by a factor of
+# several either way; the bound is set below the smallest ratio seen (1/20 at n = 300,
+# 1/2 at n = 3,000), with fixed seeds so the test is repeatable. The verdict check (never
+# "meets" when the true Ppk ≈ 1.03 < 1.33) is the sharper one.
+TOLERANCE = {300: 20.0, 3000: 2.0}
 
 
 @pytest.mark.parametrize("name", sorted(PROCESSES))
