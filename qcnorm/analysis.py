@@ -21,7 +21,7 @@ from ._version import __version__
 from ._results import Result, to_jsonable
 from ._validation import check_choice, check_optional_float, check_sample
 from .capability import Capability, capability
-from .control import ChartBaseline, ControlChart, UnitsLimits, control_chart, limits_in_units
+from .control import DEFAULT_RULES, RULE_SETS, ChartBaseline, ControlChart, UnitsLimits, control_chart, limits_in_units
 from .distributions import DistributionRanking, fit_distributions, percentile_capability
 from .errors import ConfigError, DataError, QcnormError
 from .modelrange import apply_model_range
@@ -34,7 +34,7 @@ __all__ = ["analyze", "Analysis", "Baseline", "Settings", "TRANSFORM_CHOICES", "
 
 TRANSFORM_CHOICES = ("auto", "none", "log", "boxcox", "yeojohnson", "johnson")
 CHART_CHOICES = ("auto", "individuals", "xbar_r", "xbar_s")
-RULE_CHOICES = ("western_electric", "nelson")
+RULE_CHOICES = tuple(RULE_SETS)  # "beyond_limits" (default), "western_electric", "nelson"
 MAX_MAGNITUDE = 1e50  # beyond this, fourth moments overflow double precision; no real measurement is here
 MIN_N = 8  # the Anderson–Darling p-value (D'Agostino & Stephens 1986) is given from n = 8
 MIN_SPREAD = 1e-60  # below this, fourth moments underflow double precision
@@ -188,6 +188,7 @@ class Analysis(Result):
                 "phase": ch.phase,
                 "rules": ch.rules,
                 "in_control": bool(ch.in_control),
+                "false_alarm": None if ch.false_alarm is None else ch.false_alarm.to_dict(),
                 "transformed": {
                     "center": to_jsonable(ch.center),
                     "ucl": to_jsonable(ch.ucl[typical]),
@@ -204,6 +205,7 @@ class Analysis(Result):
                 },
                 "dispersion": {
                     "statistic": disp.statistic,
+                    "limits": disp.limits,
                     "center": to_jsonable(_at(disp.center, typical)),
                     "ucl": to_jsonable(_at(disp.ucl, typical)),
                     "lcl": to_jsonable(_at(disp.lcl, typical)),
@@ -310,7 +312,7 @@ def analyze(
     subgroups: Sequence | None = None,
     transform: str = "auto",
     chart: str = "auto",
-    rules: str = "western_electric",
+    rules: str = DEFAULT_RULES,
     exclude: Iterable | Mapping = (),
     baseline: Baseline | Mapping | None = None,
     required_index: float = 1.33,
@@ -335,7 +337,11 @@ def analyze(
         A subgroup label per value (rational subgroups); None means individuals.
     transform : {"auto", "none", "log", "boxcox", "yeojohnson", "johnson"}
     chart : {"auto", "individuals", "xbar_r", "xbar_s"}
-    rules : {"western_electric", "nelson"}
+    rules : {"beyond_limits", "western_electric", "nelson"}
+        Run rules for the stability verdict. "beyond_limits" (default): a point beyond the
+        3-sigma limits or a dispersion value above its 0.1 % probability limit; about 27 %
+        of stable 100-value runs still show a signal (Western Electric: about 83 %). The
+        figure for the chosen rules is in ``chart.false_alarm``.
     exclude : iterable of int or (int, reason), or mapping {index: reason}
         Chart points (observation index for individuals, subgroup index otherwise)
         excluded from the estimates as assignable causes (Phase I).

@@ -245,7 +245,7 @@ def run_batch(
     progress: Callable[[int, int], None] | bool | None = None,
     transform: str = "auto",
     chart: str = "auto",
-    rules: str = "western_electric",
+    rules: str = "beyond_limits",
     round_lambda: bool = True,
     include_censored: bool = False,
     zeros: str = "censor",

@@ -15,6 +15,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from ._version import __version__
+from .control import DEFAULT_RULES, RULE_SETS
 from .errors import QcnormError
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
@@ -56,7 +57,8 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--required-index", type=float, default=1.33)
     a.add_argument("--transform", default="auto", choices=["auto", "none", "log", "boxcox", "yeojohnson", "johnson"])
     a.add_argument("--chart", default="auto", choices=["auto", "individuals", "xbar_r", "xbar_s"])
-    a.add_argument("--rules", default="western_electric", choices=["western_electric", "nelson"])
+    a.add_argument("--rules", default=DEFAULT_RULES, choices=list(RULE_SETS),
+                   help="run rules for the stability verdict (default %(default)s: a point beyond the limits)")
     a.add_argument("--exact-lambda", action="store_true",
                    help="use the maximum-likelihood Box–Cox λ as estimated (default: round it to "
                         "−1, −0.5, 0, 0.5, 1 or 2 when that value lies inside its 95 %% interval)")
@@ -86,7 +88,8 @@ def build_parser() -> argparse.ArgumentParser:
     b.add_argument("--jobs", type=int, default=0, help="worker processes (0 = one per core, the default)")
     b.add_argument("--transform", default="auto", choices=["auto", "none", "log", "boxcox", "yeojohnson", "johnson"])
     b.add_argument("--chart", default="auto", choices=["auto", "individuals", "xbar_r", "xbar_s"])
-    b.add_argument("--rules", default="western_electric", choices=["western_electric", "nelson"])
+    b.add_argument("--rules", default=DEFAULT_RULES, choices=list(RULE_SETS),
+                   help="run rules for the stability verdict (default %(default)s: a point beyond the limits)")
     b.add_argument("--exact-lambda", action="store_true",
                    help="use the maximum-likelihood Box–Cox λ as estimated, never rounded")
     b.add_argument("--zeros", default="censor", choices=["censor", "exclude"],

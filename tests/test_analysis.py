@@ -111,7 +111,7 @@ def test_phase_two_uses_frozen_limits_and_flags_a_shifted_process():
     base = analyze(rng.lognormal(0, 0.3, 200)).to_baseline()
     assert base.transform_name == "log"
     new = rng.lognormal(0.6, 0.3, 50)
-    shifted = analyze(new, baseline=base, usl=5.0)
+    shifted = analyze(new, baseline=base, usl=5.0, rules="western_electric")
     c, s = base.chart.center, base.chart.sigma_within
     assert shifted.chart.ucl_value == pytest.approx(c + 3 * s, rel=1e-12)
     assert shifted.chart.lcl_value == pytest.approx(c - 3 * s, rel=1e-12)
@@ -124,6 +124,8 @@ def test_phase_two_uses_frozen_limits_and_flags_a_shifted_process():
     assert shifted.capability.sigma_overall == pytest.approx(ln.std(ddof=1), rel=1e-12)
     assert not shifted.in_control
     assert any(v.rule in ("WE1", "WE2", "WE3", "WE4") for v in shifted.chart.violations)
+    # the default rules (a point beyond the frozen limits) see the shift too
+    assert not analyze(new, baseline=base, usl=5.0).in_control
 
 
 def test_fitted_bound_never_hides_a_spec_limit():
@@ -256,6 +258,22 @@ def test_negative_lower_limit_for_non_negative_data_is_explained():
     assert any("below zero" in w for w in a.warnings)
     b = analyze(np.round(x, 2) + 1.0, chart="individuals", transform="none")  # LCL well above 0
     assert not any("below zero" in w for w in b.warnings)
+
+
+def test_json_carries_the_rules_false_alarm_rate():
+    """control.false_alarm (added, nothing renamed): the expected in-control false alarms of
+    the rules over the chart's points; the default is rule 1 with a probability-limit MR chart
+    (rule 1 alone: 2Φ(−3) = 0.0027 per point, Montgomery; the MR limit adds about 0.05 %)."""
+    rng = np.random.default_rng(4)
+    d = json.loads(json.dumps(analyze(rng.normal(10, 1, 100)).to_dict()))
+    c = d["control"]
+    assert c["rules"] == "beyond_limits" and c["dispersion"]["limits"] == "probability"
+    fa = c["false_alarm"]
+    assert fa["n"] == 100 and fa["chart"] == "individuals"
+    assert 2 * stats.norm.sf(3) < fa["per_point"] < 2 * stats.norm.sf(3) + 0.001
+    assert 0.24 < fa["over_n"] <= 0.30
+    we = analyze(rng.normal(10, 1, 100), rules="western_electric").to_dict()["control"]
+    assert we["dispersion"]["limits"] == "three_sigma" and we["false_alarm"]["over_n"] > 0.75
 
 
 # --------------------------------------------------------------------------- readings of 0 from the gauge
