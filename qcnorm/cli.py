@@ -35,6 +35,14 @@ class _Parser(argparse.ArgumentParser):
         raise SystemExit(EXIT_BAD_INPUT)
 
 
+def _ppm(v) -> str:
+    """ppm in the text summary: whole numbers with thousands separators from 100 up."""
+    if v is None:
+        return "—"
+    v = float(v)
+    return f"{v:,.0f}" if v >= 100 else f"{v:.3g}"
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="qcnorm", description="Transforms, control limits and capability for non-normal QC data.")
     p.add_argument("--version", action="version", version=f"qcnorm {__version__}")
@@ -215,6 +223,18 @@ def text_summary(d: dict[str, Any]) -> str:
             lines.append(
                 f"  percentile method ({p['distribution']}): Pp {_fmt(p.get('pp'), 3)}, Ppk {_fmt(p.get('ppk'), 3)}"
             )
+        mr = cap.get("model_range") or {}
+        if mr.get("models"):
+            lines.append(f"  across models: {mr.get('summary_text') or ''}".rstrip())
+            for m in mr["models"]:
+                flag = ", bound near limit" if m.get("bound_near_limit") else ""
+                lines.append(
+                    f"   - {m['model']}{' (chosen)' if m.get('chosen') else ''} [{m['route']}]: "
+                    f"ppm {_ppm(m.get('ppm'))}, Ppk {_fmt(m.get('ppk'), 3)}, "
+                    f"{'adequate' if m.get('adequate') else 'not adequate'}{flag}; alone: {m.get('verdict')}"
+                )
+            if mr.get("verdict_basis") and mr["verdict_basis"] not in (cap.get("verdict_text") or ""):
+                lines.append(f"  {mr['verdict_basis']}")
         lines.append(f"  verdict: {cap.get('verdict_text') or cap.get('verdict')}")
     else:
         lines.append("Capability: not assessed (no spec limits given; use --lsl/--usl)")

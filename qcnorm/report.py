@@ -828,6 +828,9 @@ _REFERENCES: dict[str, str] = {
     "percentile": "ISO 22514-2 (percentile method); Clements, J.A. (1989). Process capability calculations "
                   "for non-normal distributions. Quality Progress 22(9), 95–100.",
     "nist": "NIST/SEMATECH e-Handbook of Statistical Methods, sections 6.1.6 and 6.3.2.",
+    "burnham": "Burnham, K.P. & Anderson, D.R. (2002). Model Selection and Multimodel Inference, 2nd ed. "
+               "Springer.",
+    "robson": "Robson, D.S. & Whitlock, J.H. (1964). Estimation of a truncation point. Biometrika 51, 33–39.",
 }
 
 
@@ -867,6 +870,11 @@ def _methods(v: _View) -> list[tuple[str, list[str]]]:
                     "from the normal model on the transformed scale.", ["bissell", "nist"]))
         out.append(("Percentile cross-check: capability from the quantiles X0.135, X50, X99.865 "
                     "of the best-fitting distribution.", ["percentile"]))
+        if (d.get("capability") or {}).get("model_range"):
+            out.append(("Across models: ppm and Ppk under every fitted transform and distribution; the "
+                        "verdict rests on the most pessimistic adequate one (Anderson–Darling and an AIC "
+                        "window of 10); a fitted bound within its end-point margin of a limit may not "
+                        "make the verdict optimistic.", ["burnham", "robson"]))
     return out
 
 
@@ -1107,9 +1115,35 @@ def _sec_capability(w: _Writer, v: _View) -> None:
                 widths=(50, 25, 25), align=("LEFT", "RIGHT", "RIGHT"))
     else:
         w.para("No distribution was fitted, so there is no percentile cross-check.")
+    _sub_model_range(w, cap.get("model_range"))
     w.para(str(cap.get("verdict_text") or ""), bold=True)
     for note in cap.get("notes") or []:
         w.para(str(note), size=8)
+
+
+def _sub_model_range(w: _Writer, mr: Any) -> None:
+    """ppm and Ppk under every fitted model (capability.model_range), as the JSON holds them."""
+    if not isinstance(mr, Mapping) or not mr.get("models"):
+        return
+    w.subheading("Across models")
+    if mr.get("summary_text"):
+        w.para(str(mr["summary_text"]))
+    rows = []
+    for m in mr["models"]:
+        flag = "bound near limit" if m.get("bound_near_limit") else ""
+        rows.append((_text(m.get("model")) + (" (chosen)" if m.get("chosen") else ""),
+                     _text(m.get("route")), fmt(m.get("ppm"), "ppm"), fmt(m.get("ppk"), "index"),
+                     fmt(m.get("delta_aic"), "stat") if m.get("delta_aic") is not None else _DASH,
+                     "yes" if m.get("adequate") else "no", flag,
+                     str(m.get("verdict") or _DASH).replace("_", " ")))
+    w.table(("Model", "Route", "ppm", "Ppk", "ΔAIC", "Adequate", "Flag", "Verdict alone"), rows,
+            widths=(19, 12, 12, 9, 10, 11, 15, 12),
+            align=("LEFT", "LEFT", "RIGHT", "RIGHT", "RIGHT", "LEFT", "LEFT", "LEFT"))
+    w.para(str(mr.get("verdict_basis") or ""), size=8.5)
+    w.para(f"Adequate: Anderson–Darling p ≥ {fmt(mr.get('ad_alpha'), 'stat')} (A² ≤ "
+           f"{fmt(mr.get('a2_critical'), 'stat')} where no p-value is published) and AIC within "
+           f"{fmt(mr.get('delta_aic_window'), 'stat')} of the best (Burnham & Anderson 2002). A fitted bound "
+           "within its Robson & Whitlock (1964) margin of a limit may not make the verdict optimistic.", size=8)
 
 
 def _sec_review(w: _Writer, review: Mapping[str, Any] | None) -> None:

@@ -577,3 +577,16 @@ def test_cli_date_that_is_not_iso_is_bad_input(tmp_path, capsys):
     err = capsys.readouterr().err
     assert code == EXIT_BAD_INPUT and "ISO date" in err and "25/11/2026" in err
     assert "Traceback" not in err and not out.exists()
+
+
+def test_capability_section_shows_the_range_across_models(pdf_a4, ra_analysis):
+    """The PDF draws capability.model_range as the result holds it: every model, its ppm
+    (the report's own ppm format) and the verdict basis."""
+    mr = ra_analysis.capability.model_range
+    assert mr is not None and len(mr.models) > 1
+    text = _flat(_text(pdf_a4))
+    assert "Across models" in text
+    assert _flat(mr.verdict_basis) in text
+    for m in mr.models:
+        assert fmt(m.ppm, "ppm") in text
+
