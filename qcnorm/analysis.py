@@ -490,14 +490,20 @@ def analyze(
 
     # 2. Normality before and after.
     # speed: Anderson–Darling of x and of T(x) were computed for the candidates; reused (private)
-    ad_of = {id(t_): a for t_, a in ads.values()}
+    ad_of = {id(t_): a for t_, a, _ in ads.values()}
+    # T(sorted x) of the transform used, as scored in choose_transform; the other arrays are dropped
+    ys_known = next((ty_ for t_, _, ty_ in ads.values() if t_ is tr), None)
+    ads = {fam: v[:2] for fam, v in ads.items()}
     ad_x = ads["none"][1] if "none" in ads else None
     norm_raw = normality_report(x, _sorted=xs, _ad=ad_x)
     if tr.name == "none":
         norm_t = norm_raw
     else:
-        # speed: the transform is increasing, so T(sorted x) is sorted y (checked; else sort)
-        ys = tr.transform(substitute_zero_readings(tr, xs))
+        # speed: the transform is increasing, so T(sorted x) is sorted y (checked; else sort);
+        # choose_transform already computed it for every candidate (same _forward, same input)
+        ys = ys_known
+        if ys is None:
+            ys = tr.transform(substitute_zero_readings(tr, xs))
         if not bool(np.all(ys[1:] >= ys[:-1])):
             ys = np.sort(y)
         norm_t = normality_report(y, _sorted=ys, _ad=ad_of.get(id(tr)))

@@ -25,8 +25,10 @@ Pp / Ppk from its 0.135 %, 50 % and 99.865 % quantiles.
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import math
+import threading
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import Any
@@ -246,6 +248,35 @@ class _Family:
     method: str
 
 
+# speed: ln(x − θ) of the sample being fitted is computed once and shared by the fits,
+# log-likelihoods and A² of the families (lognormal, Weibull and gamma all need ln x; the
+# 3-parameter lognormal needs ln(x − θ̂) three times). Same numbers: the same np.log of the
+# same array. Active only inside ``_sharing_logs`` (fit_distributions), per thread.
+_LOG_MEMO = threading.local()
+
+
+@contextlib.contextmanager
+def _sharing_logs(*samples: np.ndarray):
+    prev = getattr(_LOG_MEMO, "entries", None)
+    _LOG_MEMO.entries = [(xs, {}) for xs in samples]
+    try:
+        yield
+    finally:
+        _LOG_MEMO.entries = prev
+
+
+def _log_shifted(xs: np.ndarray, shift: float = 0.0) -> np.ndarray:
+    """ln(xs − shift), read-only, remembered for a sample fitted under ``_sharing_logs``."""
+    for held, memo in getattr(_LOG_MEMO, "entries", None) or ():
+        if held is xs:
+            lx = memo.get(shift)
+            if lx is None:
+                lx = memo[shift] = np.log(xs - shift) if shift else np.log(xs)
+                lx.setflags(write=False)
+            return lx
+    return np.log(xs - shift) if shift else np.log(xs)
+
+
 def _normal_ml(v: np.ndarray) -> tuple[float, float]:
     mu = float(v.mean())
     sigma = float(np.sqrt(np.mean((v - mu) ** 2)))
@@ -284,20 +315,20 @@ def _lcs_normal(xs: np.ndarray, p: dict[str, float]):
 
 
 def _fit_lognormal(xs: np.ndarray) -> dict[str, float]:
-    mu, sigma = _normal_ml(np.log(xs))
+    mu, sigma = _normal_ml(_log_shifted(xs))
     _require_spread(sigma, "on the log scale")
     return {"mu": mu, "sigma": sigma}
 
 
 def _ll_lognormal(xs: np.ndarray, p: dict[str, float]) -> float:
-    lx = np.log(xs - p.get("threshold", 0.0))
+    lx = _log_shifted(xs, p.get("threshold", 0.0))
     z = (lx - p["mu"]) / p["sigma"]
     n = xs.size
     return float(-0.5 * n * _LN_2PI - n * math.log(p["sigma"]) - 0.5 * _vdot(z, z) - lx.sum())
 
 
 def _lcs_lognormal(xs: np.ndarray, p: dict[str, float]):
-    return _log_phi_pair_sorted((np.log(xs - p.get("threshold", 0.0)) - p["mu"]) / p["sigma"])
+    return _log_phi_pair_sorted((_log_shifted(xs, p.get("threshold", 0.0)) - p["mu"]) / p["sigma"])
 
 
 class _Bound:
@@ -401,7 +432,7 @@ def _fit_lognormal3(xs: np.ndarray) -> dict[str, float]:
             "distribution. Use the normal or 2-parameter lognormal fit instead."
         )
     theta = x1 - math.exp(root)
-    mu, sigma = _normal_ml(np.log(xs - theta))
+    mu, sigma = _normal_ml(_log_shifted(xs, theta))
     return {"mu": mu, "sigma": sigma, "threshold": theta}
 
 
@@ -409,9 +440,10 @@ def _fit_lognormal3(xs: np.ndarray) -> dict[str, float]:
 
 
 def _fit_weibull(xs: np.ndarray) -> dict[str, float]:
-    lx = np.log(xs)
+    lx = _log_shifted(xs)
     lmax = float(lx[-1])
     l0 = lx - lmax  # ≤ 0, so exp(k·l0) cannot overflow
+    l0sq = l0 * l0  # the same product every Newton step: formed once
     mean_l = float(l0.mean())
     sd_l = float(l0.std())
     _require_spread(sd_l, "on the log scale")
@@ -422,7 +454,7 @@ def _fit_weibull(xs: np.ndarray) -> dict[str, float]:
         e = np.exp(k * l0)
         s0 = e.sum()
         s1 = _vdot(e, l0)
-        s2 = _vdot(e, l0 * l0)
+        s2 = _vdot(e, l0sq)
         g = s1 / s0 - 1.0 / k - mean_l
         dg = (s2 * s0 - s1 * s1) / (s0 * s0) + 1.0 / (k * k)
         return g, dg
@@ -452,13 +484,13 @@ def _fit_weibull(xs: np.ndarray) -> dict[str, float]:
 
 def _ll_weibull(xs: np.ndarray, p: dict[str, float]) -> float:
     k, lam = p["shape"], p["scale"]
-    lz = np.log(xs) - math.log(lam)
+    lz = _log_shifted(xs) - math.log(lam)
     n = xs.size
     return float(n * math.log(k) - n * math.log(lam) + (k - 1.0) * lz.sum() - np.exp(k * lz).sum())
 
 
 def _lcs_weibull(xs: np.ndarray, p: dict[str, float]):
-    u = np.exp(p["shape"] * (np.log(xs) - math.log(p["scale"])))
+    u = np.exp(p["shape"] * (_log_shifted(xs) - math.log(p["scale"])))
     return np.log(-np.expm1(-u)), -u
 
 
@@ -467,7 +499,7 @@ def _lcs_weibull(xs: np.ndarray, p: dict[str, float]):
 
 def _fit_gamma(xs: np.ndarray) -> dict[str, float]:
     m = float(xs.mean())
-    s = math.log(m) - float(np.log(xs).mean())  # ≥ 0 by the AM–GM inequality
+    s = math.log(m) - float(_log_shifted(xs).mean())  # ≥ 0 by the AM–GM inequality
     if not s > 0.0:
         raise DataError("All values are equal: there is no spread to fit a distribution to.")
     # ML shape solves ln a − ψ(a) = s; start from Minka's (2002) approximation.
@@ -491,7 +523,7 @@ def _ll_gamma(xs: np.ndarray, p: dict[str, float]) -> float:
     a, th = p["shape"], p["scale"]
     n = xs.size
     return float(
-        (a - 1.0) * np.log(xs).sum() - xs.sum() / th - n * a * math.log(th) - n * float(gammaln(a))
+        (a - 1.0) * _log_shifted(xs).sum() - xs.sum() / th - n * a * math.log(th) - n * float(gammaln(a))
     )
 
 
@@ -614,7 +646,7 @@ def _ad_p_value(
         if case3 is not None and case3.n == n:  # the same A², already computed (analyze)
             a2_case3 = case3.statistic
         else:
-            v = xs if name == "normal" else np.log(xs)
+            v = xs if name == "normal" else _log_shifted(xs)
             mu = float(v.mean())
             sd = float(np.sqrt(_vdot(v - mu, v - mu) / (n - 1)))
             a2_case3 = anderson_darling_a2(*_log_phi_pair_sorted((v - mu) / sd))
@@ -800,25 +832,26 @@ def fit_distributions(
             xs_pos[:k] = _zero_step / 4.0
             zero_note = (f" {k} reading(s) of 0 were taken as {_zero_step / 4.0:g}, the middle of their rounding "
                          f"interval 0 to {_zero_step / 2.0:g} (gauge step {_zero_step:g}).")
-    for nm in dict.fromkeys(chosen):
-        use_pos = zero_note and _FAMILIES[nm].support == "positive"
-        try:
-            # ``_case3`` (private, for analyze()): {"normal": ADResult of x, "lognormal":
-            # ADResult of ln x} (case 3 of the normal test), already computed elsewhere.
-            if use_pos:
-                f = _fit_sorted(nm, xs_pos)
-                # Likelihood as the transform candidates score censored zeros (selection.py):
-                # each 0 reading enters as ln P(0 < X ≤ h/2), not as a density at h/4, so the
-                # AICs of both routes stay comparable.
-                k0 = int(np.count_nonzero(xs == 0.0))
-                half = _zero_step / 2.0
-                ll = f.loglik - k0 * float(f.logpdf(_zero_step / 4.0)) + k0 * float(f.logcdf(half))
-                fits.append(dataclasses.replace(f, loglik=ll, aic=2.0 * f.n_params - 2.0 * ll,
-                                                note=f.note + zero_note))
-            else:
-                fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
-        except DataError as exc:  # includes DomainError
-            skipped.append((nm, str(exc)))
+    with _sharing_logs(xs, xs_pos):  # speed: ln x once for all the fits (same numbers)
+        for nm in dict.fromkeys(chosen):
+            use_pos = zero_note and _FAMILIES[nm].support == "positive"
+            try:
+                # ``_case3`` (private, for analyze()): {"normal": ADResult of x, "lognormal":
+                # ADResult of ln x} (case 3 of the normal test), already computed elsewhere.
+                if use_pos:
+                    f = _fit_sorted(nm, xs_pos)
+                    # Likelihood as the transform candidates score censored zeros (selection.py):
+                    # each 0 reading enters as ln P(0 < X ≤ h/2), not as a density at h/4, so the
+                    # AICs of both routes stay comparable.
+                    k0 = int(np.count_nonzero(xs == 0.0))
+                    half = _zero_step / 2.0
+                    ll = f.loglik - k0 * float(f.logpdf(_zero_step / 4.0)) + k0 * float(f.logcdf(half))
+                    fits.append(dataclasses.replace(f, loglik=ll, aic=2.0 * f.n_params - 2.0 * ll,
+                                                    note=f.note + zero_note))
+                else:
+                    fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
+            except DataError as exc:  # includes DomainError
+                skipped.append((nm, str(exc)))
     if not fits:
         reasons = "; ".join(f"{nm}: {why}" for nm, why in skipped)
         raise DataError(f"No distribution could be fitted to these data. {reasons}")

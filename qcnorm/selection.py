@@ -200,7 +200,7 @@ def _resolve(candidates: str | Sequence[str]) -> tuple[tuple[str, ...], bool]:
 def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = None,
               zero_limit: float | None = None) -> CandidateFit:
     """Scores of a fitted transform on the sorted sample ``xs``; ``ad_out[family]`` gets
-    ``(t, ADResult of T(xs))`` when a dict is given (reused by analyze()). With
+    ``(t, ADResult of T(xs), T(xs) itself, ascending)`` when a dict is given (reused by analyze()). With
     ``zero_limit`` the readings of 0 are scored as censored (see choose_transform Notes)."""
     from .normality import _vdot, anderson_darling
 
@@ -225,7 +225,7 @@ def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = N
     skew = _vdot(dev * dev, dev) / n / m2**1.5
     ad = anderson_darling(ty, presorted=True)
     if ad_out is not None:
-        ad_out[family] = (t, ad)
+        ad_out[family] = (t, ad, ty)
     return CandidateFit(
         name=t.name, family=family, params=t.params_, loglik=loglik, aic=2.0 * k - 2.0 * loglik,
         delta_aic=math.nan, ad_statistic=float(ad.statistic), ad_p_value=float(ad.p_value),
@@ -405,7 +405,7 @@ def choose_transform(
     names, single = _resolve(candidates)
     # Sorted once (every transform is increasing). ``_sorted`` is private plumbing for
     # analyze(), which sorts the data once for all its steps: np.sort(x), trusted as is.
-    # ``_ad_out`` (private, for analyze()) collects {family: (fitted transform, ADResult)}.
+    # ``_ad_out`` (private, for analyze()) collects {family: (fitted transform, ADResult, sorted T(x))}.
     xs = np.sort(arr) if _sorted is None else _sorted
     zh = _zero_handling(xs, zeros)
     zero_limit = zh.limit if zh.method == "censored" else None
