@@ -281,6 +281,7 @@ def run_batch(
     scheduler: str | None = None,
     read_mode: str = "auto",
     chunk_rows: int = 200_000,
+    chunk_cells: int = 5_000_000,
     task_size: int | None = None,
 ) -> BatchResult:
     """Analyse every characteristic of a wide or long file, or of a folder of files.
@@ -315,6 +316,8 @@ def run_batch(
         by file size (chunked from :data:`qcnorm.batch_input.SMALL_FILE_BYTES` up).
     chunk_rows : int
         Rows per chunk when a long file or a folder is read in chunks.
+    chunk_cells : int
+        Cells per group of columns when a wide file is read in chunks.
     task_size : int, optional
         Characteristics per task sent to a worker (default: enough to give each
         worker about eight tasks, at most 64 per task).
@@ -330,8 +333,9 @@ def run_batch(
         raise ConfigError(f"jobs must be a whole number ≥ 0 (0 = one per core). Got {jobs!r} instead.")
     if task_size is not None and (not isinstance(task_size, int) or task_size < 1):
         raise ConfigError(f"task_size must be a whole number ≥ 1. Got {task_size!r} instead.")
-    if not isinstance(chunk_rows, int) or chunk_rows < 1:
-        raise ConfigError(f"chunk_rows must be a whole number ≥ 1. Got {chunk_rows!r} instead.")
+    for nm, v in (("chunk_rows", chunk_rows), ("chunk_cells", chunk_cells)):
+        if isinstance(v, bool) or not isinstance(v, int) or v < 1:
+            raise ConfigError(f"{nm} must be a whole number ≥ 1. Got {v!r} instead.")
     if specs is not None and not isinstance(specs, Mapping):
         specs = read_specs(specs)
     specs = {_key(k): v for k, v in (specs or {}).items()}
@@ -344,16 +348,13 @@ def run_batch(
     address = scheduler_address(scheduler)
 
     plan = plan_items(source, subgroup=subgroup, sheet=sheet, include_censored=include_censored,
-                      read_mode=read_mode, chunk_rows=chunk_rows)
+                      read_mode=read_mode, chunk_rows=chunk_rows, chunk_cells=chunk_cells)
     try:
         total = plan.total
-        workers = jobs
-        if task_size is None:
-            task_size = max(1, min(64, math.ceil(total / max(1, workers * 8))))
-        n_tasks = math.ceil(total / task_size) if total else 0
-        chosen = choose_engine(engine, address, jobs, n_tasks)
-        if chosen == "dask" and not address and engine == "auto":
-            chosen = "pool"
+        size = task_size or max(1, min(64, math.ceil(total / max(1, jobs * 8))))
+        chosen = choose_engine(engine, address, jobs, math.ceil(total / size) if total else 0)
+        if task_size is None:  # in this process, one characteristic per task: progress as each is done
+            task_size = 1 if chosen == "local" else size
         opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda}
         pdf = None if pdf_dir is None else str(pdf_dir)
         order: dict[int, BatchRow] = {}
@@ -374,6 +375,8 @@ def run_batch(
             if task:
                 yield (tuple(task), opts, pdf)
 
+        if chosen == "pool":
+            from . import analysis  # noqa: F401 - imported once here, inherited by forked workers
         done = 0
         if progress:
             progress(0, total)

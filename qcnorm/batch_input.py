@@ -45,8 +45,9 @@ __all__ = ["ReadyItem", "CarefulItem", "ItemPlan", "plan_items", "materialize", 
 SMALL_FILE_BYTES = 1_000_000
 READ_MODES = ("auto", "whole", "chunked")
 _TEXT_SUFFIXES = (".csv", ".tsv", ".txt", ".dat")
-_PLAIN = re.compile(r"^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$")
-_HEAD_CELLS = 20_000  # cells the careful reader looks at to learn a file's layout
+_NUM = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
+_PLAIN_LINES = re.compile(rf"(?:{_NUM}\n)*{_NUM}")  # one plain number per line, nothing else
+_HEAD_CELLS = 4_000  # cells the careful reader looks at to learn a file's layout
 
 
 @dataclass(frozen=True, slots=True)
@@ -171,7 +172,7 @@ def _head_bytes(path: Path) -> tuple[bytes, int]:
     with open(path, "rb") as fh:
         first = fh.readline()
         n_cols = max(1, first.count(b",") + first.count(b";") + first.count(b"\t") + 1)
-        n_lines = max(10, min(200, _HEAD_CELLS // n_cols))
+        n_lines = max(5, min(200, _HEAD_CELLS // n_cols))
         lines = [first] + [fh.readline() for _ in range(n_lines)]
     lines = [ln for ln in lines if ln]
     return b"".join(lines), len(lines) - 1
@@ -179,38 +180,39 @@ def _head_bytes(path: Path) -> tuple[bytes, int]:
 
 def _learn(path: Path, subgroup: Any, include_censored: bool) -> _Head | None:
     """Layout of a text file from its first rows, or None when only the careful reader will do."""
-    from .data import read_all, read_table
+    from .data import read_all
 
     data, n_rows = _head_bytes(path)
     try:
-        rt = read_table(data)
         found = read_all(data, subgroup=subgroup, include_censored=include_censored)
     except QcnormError:
         return None
-    if rt.header_row != 1 or rt.delimiter is None or rt.layout not in ("wide", "long"):
+    ms = [m for m in found.values() if not isinstance(m, QcnormError)]
+    if not ms:
         return None
-    enc = (rt.encoding or "utf-8").lower()
+    rep = ms[0].report
+    if rep.header_row != 1 or rep.delimiter is None or rep.layout not in ("wide", "long") or any(
+            m.report.thousands for m in ms):
+        return None
+    enc = (rep.encoding or "utf-8").lower().replace("_", "-")
     if enc not in ("utf-8", "ascii", "utf-8-sig"):
         return None
-    ms = [m for m in found.values() if not isinstance(m, QcnormError)]
-    decimal = ms[0].report.decimal if ms else "."
-    if any(m.report.thousands for m in ms):
-        return None
     try:
-        raw = list(pd.read_csv(path, sep=rt.delimiter, encoding=enc, nrows=0, dtype=str).columns)
+        frame = pd.read_csv(io.BytesIO(data), sep=rep.delimiter, encoding=enc, dtype=str, keep_default_na=False)
     except (ValueError, pd.errors.ParserError, UnicodeDecodeError):
         return None
-    names = list(rt.columns)
-    if len(raw) != len(names) or any(str(a).strip() != str(b).strip() for a, b in zip(raw, names)):
+    raw = [str(c) for c in frame.columns]
+    names = [c.strip() for c in raw]
+    if len(set(names)) != len(names):
         return None
     sub_pos = None
     if subgroup is not None:
         sub_pos = _find(names, subgroup)
         if sub_pos is None:
             return None
-    head = _Head(rt.layout, rt.delimiter, enc, decimal, raw, {}, sub_pos, head_found=found, head_rows=n_rows,
-                 include_censored=include_censored)
-    if rt.layout == "wide":
+    head = _Head(rep.layout, rep.delimiter, enc, rep.decimal, raw, {}, sub_pos, head_found=found,
+                 head_rows=n_rows, include_censored=include_censored)
+    if rep.layout == "wide":
         for key in found:
             pos = _find(names, key)
             if pos is None:
@@ -220,17 +222,16 @@ def _learn(path: Path, subgroup: Any, include_censored: bool) -> _Head | None:
     # long: the value column is the one the reader used; the characteristic column is the
     # one whose labels are exactly the labels the reader found
     cols = {m.column for m in ms}
-    if len(cols) != 1 or not ms:
+    if len(cols) != 1:
         return None
     head.value_pos = _find(names, cols.pop())
-    frame = rt.frame
     labels = set(found)
-    chars = [j for j, c in enumerate(names)
+    chars = [j for j in range(len(names))
              if {str(v).strip() for v in frame.iloc[:, j]} - {""} == labels and j != head.value_pos]
     if len(chars) != 1 or head.value_pos is None:
         return None
     head.char_pos = chars[0]
-    units = [j for j, c in enumerate(names) if j not in (head.char_pos, head.value_pos)
+    units = [j for j in range(len(names)) if j not in (head.char_pos, head.value_pos)
              and all(m.units is not None and m.units in {str(v).strip() for v in frame.iloc[:, j]} for m in ms)]
     head.unit_pos = units[0] if len(units) == 1 and all(m.units for m in ms) else None
     return head
@@ -254,18 +255,18 @@ def _fast(values: pd.Series, subs: pd.Series | None, decimal: str) -> tuple[np.n
     """Plain-number cells parsed as the careful reader parses them, or None if any cell is not plain."""
     if decimal != ".":
         return None
-    v = values.str.strip()
-    if not bool(v.str.fullmatch(_PLAIN).all()):
+    cells = [c.strip() for c in values.tolist()]
+    if not cells or _PLAIN_LINES.fullmatch("\n".join(cells)) is None:
         return None
-    out = np.array([float(s) for s in v.tolist()], dtype=float)
+    out = np.array([float(c) for c in cells], dtype=float)
     if not np.isfinite(out).all():
         return None
     labels = None
     if subs is not None:
-        s = subs.str.strip()
-        if bool((s == "").any()):
+        labs = [c.strip() for c in subs.tolist()]
+        if not all(labs):
             return None
-        labels = s.to_numpy(dtype=str)
+        labels = np.array(labs, dtype=str)
     return out, labels
 
 
