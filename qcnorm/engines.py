@@ -111,8 +111,11 @@ def local_cluster(jobs: int):
     """A LocalCluster on 127.0.0.1: one single-threaded worker process per job, no dashboard."""
     from distributed import LocalCluster
 
+    # dashboard_address=None turns the dashboard off; the scheduler still serves its small
+    # health/metrics HTTP routes, which we keep on 127.0.0.1 and a free port (not 8787).
     return LocalCluster(n_workers=max(1, jobs), threads_per_worker=1, processes=True, host="127.0.0.1",
-                        dashboard_address=None, scheduler_port=0, silence_logs=logging.ERROR)
+                        dashboard_address=None, scheduler_port=0, silence_logs=logging.ERROR,
+                        scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})
 
 
 def _run_dask(func, tasks, jobs, scheduler, on_fail, *, client=None):
