@@ -169,12 +169,29 @@ class _Head:
 
 
 def _head_bytes(path: Path) -> tuple[bytes, int]:
+    """The first lines of a file: enough for every column to show a few filled cells (a
+    sparse characteristic must not look empty), at least a few lines, at most 5 000."""
     with open(path, "rb") as fh:
         first = fh.readline()
-        n_cols = max(1, first.count(b",") + first.count(b";") + first.count(b"\t") + 1)
-        n_lines = max(5, min(200, _HEAD_CELLS // n_cols))
-        lines = [first] + [fh.readline() for _ in range(n_lines)]
-    lines = [ln for ln in lines if ln]
+        sep = max((b",", b";", b"\t"), key=first.count)
+        n_cols = first.count(sep) + 1
+        n_min = max(5, min(200, _HEAD_CELLS // n_cols))
+        filled = np.zeros(n_cols, dtype=int)
+        lines = [first]
+        while len(lines) <= 5000:
+            ln = fh.readline()
+            if not ln:
+                break
+            lines.append(ln)
+            try:
+                cells = next(csv.reader([ln.decode("utf-8", "replace")], delimiter=sep.decode()))
+            except (csv.Error, StopIteration):
+                cells = []
+            for j, c in enumerate(cells[:n_cols]):
+                if c.strip():
+                    filled[j] += 1
+            if len(lines) > n_min and filled.min() >= 3:
+                break
     return b"".join(lines), len(lines) - 1
 
 

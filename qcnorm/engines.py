@@ -25,6 +25,7 @@ import os
 import uuid
 from collections.abc import Callable, Iterable, Iterator
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
 from typing import Any
 
 from .errors import ConfigError
@@ -86,25 +87,50 @@ def run_tasks(func: Callable[[Any], Any], tasks: Iterable[Any], *, engine: str, 
 
 
 def _run_pool(func, tasks, jobs, on_fail):
+    """The process pool. A worker that dies breaks the whole pool (that is how
+    ProcessPoolExecutor works): its tasks and the ones not yet sent become failed rows."""
     it = iter(tasks)
     limit = max(1, jobs) * _IN_FLIGHT_PER_WORKER
     with ProcessPoolExecutor(max_workers=max(1, jobs)) as ex:
         pending: dict[Any, Any] = {}
+        broken: BaseException | None = None
+
+        def send(t) -> None:
+            nonlocal broken
+            if broken is None:
+                try:
+                    pending[ex.submit(func, t)] = t
+                    return
+                except BrokenProcessPool as exc:
+                    broken = exc
+            failed.append(t)
+
+        failed: list[Any] = []
         for t in it:
-            pending[ex.submit(func, t)] = t
+            send(t)
             if len(pending) >= limit:
                 break
-        while pending:
+        while pending or failed:
+            while failed:
+                t = failed.pop(0)
+                yield t, on_fail(t, broken)
+            if not pending:
+                break
             done, _ = wait(pending, return_when=FIRST_COMPLETED)
             for f in done:
                 t = pending.pop(f)
                 try:
-                    yield t, f.result()
+                    res = f.result()
                 except Exception as exc:  # noqa: BLE001
-                    yield t, on_fail(t, exc)
+                    if isinstance(exc, BrokenProcessPool):
+                        broken = broken or exc
+                    res = on_fail(t, exc)
+                yield t, res
                 nxt = next(it, None)
                 if nxt is not None:
-                    pending[ex.submit(func, nxt)] = nxt
+                    send(nxt)
+        for t in it:  # left over after the pool broke
+            yield t, on_fail(t, broken)
 
 
 def local_cluster(jobs: int):

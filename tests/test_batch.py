@@ -237,3 +237,67 @@ def test_bad_options_are_clear(tmp_path):
         run_batch(p, read_mode="fast")
     with pytest.raises(QcnormError, match="delimited text file"):
         run_batch(pd.DataFrame({"a": [1.0, 2.0]}), read_mode="chunked")
+
+
+def test_chunked_keeps_a_sparse_characteristic(tmp_path):
+    """A characteristic measured every 40th part (blank in the first rows) is still found."""
+    rng = np.random.default_rng(11)
+    n = 400
+    df = pd.DataFrame({f"D{i} [mm]": rng.gamma(4, 1, n).round(3) for i in range(3)})
+    sparse = np.full(n, "", dtype=object)
+    sparse[39::40] = [f"{v:.3f}" for v in rng.lognormal(0, 0.3, len(sparse[39::40]))]
+    df["Rare [mm]"] = sparse
+    p = tmp_path / "sparse.csv"
+    df.to_csv(p, index=False)
+    whole = run_batch(p, read_mode="whole").frame()
+    chunked = run_batch(p, read_mode="chunked").frame()
+    assert "Rare" in set(whole["characteristic"])
+    pd.testing.assert_frame_equal(whole, chunked)
+
+
+def test_cli_folder_chunked_equals_file_whole(tmp_path, capsys):
+    from qcnorm.cli import main
+
+    folder = tmp_path / "days"
+    folder.mkdir()
+    lines = (DEMO / "line3_spool_long.csv").read_text(encoding="utf-8").splitlines(keepends=True)
+    (folder / "a.csv").write_text(lines[0] + "".join(lines[1:2000]), encoding="utf-8")
+    (folder / "b.csv").write_text(lines[0] + "".join(lines[2000:]), encoding="utf-8")
+    one, many = tmp_path / "one.csv", tmp_path / "many.csv"
+    assert main(["batch", str(DEMO / "line3_spool_long.csv"), "--subgroup", "Subgroup", "--engine", "local",
+                 "--read", "whole", "--out", str(one)]) == 0
+    assert main(["batch", str(folder), "--subgroup", "Subgroup", "--engine", "pool", "--jobs", "2",
+                 "--chunk-rows", "300", "--out", str(many)]) == 0
+    assert many.read_bytes() == one.read_bytes()
+    assert main(["batch", str(folder), "--chunk-rows", "0"]) == 2
+    assert "--chunk-rows" in capsys.readouterr().err
+
+
+from qcnorm.batch import _analyse_task as _ANALYSE_TASK  # noqa: E402
+
+
+def _die_on_k003(task):
+    """A worker that dies (as with a crash in a C library) on the task holding C003."""
+    import os as _os
+
+    if any(name == "C003" for _, name, _, _ in task[0]):
+        _os._exit(3)
+    return _ANALYSE_TASK(task)
+
+
+def test_pool_worker_crash_gives_error_rows_not_a_stopped_run(tmp_path, monkeypatch):
+    import qcnorm.batch as batch_mod
+
+    p, specs = _wide(tmp_path, n_chars=8)
+    monkeypatch.setattr(batch_mod, "_analyse_task", _die_on_k003, raising=True)
+    res = run_batch(p, specs=specs, engine="pool", jobs=2, task_size=1)
+    monkeypatch.undo()
+    ref = {r.characteristic: r for r in run_batch(p, specs=specs, engine="local").rows}
+    assert len(res.rows) == 10  # every characteristic has a row
+    bad = next(r for r in res.rows if r.characteristic == "C003")
+    assert bad.error and "worker" in bad.error
+    # a dead worker breaks a process pool: other rows may fail with it, but none is lost and
+    # the ones that ran are the same as in this process
+    done = [r for r in res.rows if not r.error]
+    assert all(r.ppk == ref[r.characteristic].ppk for r in done)
+    assert all("worker" in r.error for r in res.rows if r.error and r.characteristic not in ("Constant",))
