@@ -230,8 +230,9 @@ def _learn(path: Path, subgroup: Any, include_censored: bool) -> _Head | None:
     head = _Head(rep.layout, rep.delimiter, enc, rep.decimal, raw, {}, sub_pos, head_found=found,
                  head_rows=n_rows, include_censored=include_censored)
     if rep.layout == "wide":
+        find = _Finder(names)
         for key in found:
-            pos = _find(names, key)
+            pos = find(key)
             if pos is None:
                 return None
             head.keys[key] = pos
@@ -254,27 +255,52 @@ def _learn(path: Path, subgroup: Any, include_censored: bool) -> _Head | None:
     return head
 
 
-def _find(names: list[str], wanted: Any) -> int | None:
-    if isinstance(wanted, int) and not isinstance(wanted, bool):
-        return wanted if 0 <= wanted < len(names) else None
+def _key_fns():
     from .data import split_units
 
-    w = str(wanted)
-    for key in (lambda s: str(s).strip(), lambda s: "".join(str(s).lower().split()),
-                lambda s: "".join(str(split_units(str(s))[0] or s).lower().split())):
-        hits = [j for j, n in enumerate(names) if key(n) == key(w)]
-        if len(hits) == 1:
-            return hits[0]
-    return None
+    return (lambda s: str(s).strip(), lambda s: "".join(str(s).lower().split()),
+            lambda s: "".join(str(split_units(str(s))[0] or s).lower().split()))
+
+
+class _Finder:
+    """Column positions by name, matched as the careful reader matches them (exact, then
+    case- and space-insensitive, then without units); built once per file."""
+
+    def __init__(self, names: list[str]) -> None:
+        self.n = len(names)
+        self.fns = _key_fns()
+        self.index: list[dict[str, list[int]]] = []
+        for fn in self.fns:
+            d: dict[str, list[int]] = {}
+            for j, nm in enumerate(names):
+                d.setdefault(fn(nm), []).append(j)
+            self.index.append(d)
+
+    def __call__(self, wanted: Any) -> int | None:
+        if isinstance(wanted, int) and not isinstance(wanted, bool):
+            return wanted if 0 <= wanted < self.n else None
+        for fn, d in zip(self.fns, self.index):
+            hits = d.get(fn(wanted), [])
+            if len(hits) == 1:
+                return hits[0]
+        return None
+
+
+def _find(names: list[str], wanted: Any) -> int | None:
+    return _Finder(names)(wanted)
 
 
 def _fast(values: pd.Series, subs: pd.Series | None, decimal: str) -> tuple[np.ndarray, np.ndarray | None] | None:
     """Plain-number cells parsed as the careful reader parses them, or None if any cell is not plain."""
     if decimal != ".":
         return None
-    cells = [c.strip() for c in values.tolist()]
-    if not cells or _PLAIN_LINES.fullmatch("\n".join(cells)) is None:
+    cells = values.tolist()
+    if not cells:
         return None
+    if _PLAIN_LINES.fullmatch("\n".join(cells)) is None:  # spaces around a number are allowed
+        cells = [c.strip() for c in cells]
+        if _PLAIN_LINES.fullmatch("\n".join(cells)) is None:
+            return None
     out = np.array([float(c) for c in cells], dtype=float)
     if not np.isfinite(out).all():
         return None
