@@ -41,9 +41,9 @@ _IN_FLIGHT_PER_WORKER = 3
 def choose_engine(engine: str | None, scheduler: str | None, jobs: int, n_tasks: int) -> str:
     """The engine to use: as asked, else Dask when an address is given, else local/pool.
 
-    The default without an address is the process pool: on the 2-core machine the
-    benchmarks ran on, a LocalCluster costs about 2 s to start and was no faster for
-    large jobs (benchmarks/README.md).
+    The default without an address is the process pool: on the project's 2-core machine a
+    LocalCluster was slower for small and large jobs alike (its start and the workers'
+    own imports cost seconds; a forked pool inherits the imports), see benchmarks/README.md.
     """
     engine = (engine or "auto").lower()
     if engine not in ENGINES:
