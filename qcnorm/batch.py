@@ -274,9 +274,10 @@ def run_batch(
     progress: Callable[[int, int], None] | bool | None = None,
     transform: str = "auto",
     chart: str = "auto",
-    rules: str = "western_electric",
+    rules: str = "beyond_limits",
     round_lambda: bool = True,
     include_censored: bool = False,
+    zeros: str = "censor",
     engine: str = "auto",
     scheduler: str | None = None,
     read_mode: str = "auto",
@@ -303,7 +304,7 @@ def run_batch(
     pdf_dir : path, optional
         Write one PDF summary per characteristic into this folder.
     progress : callable(done, total) or True for a bar on stderr.
-    transform, chart, rules, round_lambda : as for :func:`qcnorm.analyze`.
+    transform, chart, rules, round_lambda, zeros : as for :func:`qcnorm.analyze`.
     include_censored : as for :func:`qcnorm.read_measurements`.
     engine : {"auto", "local", "pool", "dask"}
         Where the work runs (see :mod:`qcnorm.engines`). "auto": Dask when a
@@ -355,7 +356,8 @@ def run_batch(
         chosen = choose_engine(engine, address, jobs, math.ceil(total / size) if total else 0)
         if task_size is None:  # in this process, one characteristic per task: progress as each is done
             task_size = 1 if chosen == "local" else size
-        opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda}
+        opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda,
+                "zeros": zeros}
         pdf = None if pdf_dir is None else str(pdf_dir)
         order: dict[int, BatchRow] = {}
 
