@@ -15,11 +15,12 @@ from typing import Any
 
 import streamlit as st
 
+from .._markup import html_text, markdown_text
 from ..caution import CAUTION
 from ..errors import QcnormError
 from . import state
 
-__all__ = ["CAUTION", "caution", "style", "run_page", "guard", "show_error", "fmt", "fmt_ci", "fmt_p", "fmt_limit",
+__all__ = ["CAUTION", "md", "esc", "caution", "style", "run_page", "guard", "show_error", "fmt", "fmt_ci", "fmt_p", "fmt_limit",
            "next_step", "sidebar_summary", "require_analysis", "app_words", "chart_words", "CHART_WORDS", "ICONS"]
 
 log = logging.getLogger("qcnorm.ui")
@@ -29,6 +30,20 @@ APOLOGY = (
     "This is a fault in qcnorm, not in your data handling: please report it with the file "
     "you loaded and the step you were on. Your other results are unaffected."
 )
+
+
+def md(text: Any, *, multiline: bool = False) -> str:
+    """User-typed text (names, comments, characteristic names, units, file names, labels,
+    messages that quote them) for any Markdown-rendering call: st.markdown, st.caption,
+    st.info/success/warning/error, widget labels. It renders as exactly the characters typed:
+    ``<b>x</b>`` shows as such, ``**``, links and ``:colour[...]`` badges do nothing.
+    The one helper every page uses (see :mod:`qcnorm._markup`)."""
+    return markdown_text(text, multiline=multiline)
+
+
+def esc(text: Any) -> str:
+    """User-typed text placed inside raw HTML (unsafe_allow_html) or a plotly label."""
+    return html_text(text)
 
 
 def caution() -> None:
@@ -92,7 +107,8 @@ def app_words(text: str) -> str:
 def show_error(exc: BaseException) -> None:
     """One short message: the core's own words for user problems, an apology otherwise."""
     if isinstance(exc, QcnormError):
-        st.error(app_words(str(exc)), icon=":material/front_hand:")
+        # the core's messages quote file, column and characteristic names: shown as text
+        st.error(md(app_words(str(exc)), multiline=True), icon=":material/front_hand:")
     else:
         log.exception("qcnorm internal error on the page")
         st.error(f"{APOLOGY} (internal detail: {type(exc).__name__})", icon=":material/build:")
@@ -200,7 +216,7 @@ def sidebar_summary() -> None:
         st.caption("Nothing loaded.")
         return
     what = state.get("qc_characteristic") or state.get("qc_column") or "—"
-    st.caption(f"**Data:** {src.name}  \n**Characteristic:** {what}")
+    st.caption(f"**Data:** {md(src.name)}  \n**Characteristic:** {md(what)}")
     ex = state.exclusions()
     if ex:
         st.caption(f"**Excluded points:** {len(ex)}")

@@ -30,7 +30,7 @@ _INDEX_NAMES = {"cpk": "Cpk (within)", "ppk": "Ppk (overall)"}
 
 def shift_label(r: AnalysisRecord) -> str:
     """x-axis label of a saved analysis: '#12 · 2026-11-25 C'."""
-    return f"#{r.id} · {r.shift or r.created_at[:10]}"
+    return f"#{r.id} · {common.esc(r.shift or r.created_at[:10])}"  # plotly reads HTML: typed text escaped
 
 
 def _num(v: Any) -> float | None:
@@ -132,7 +132,7 @@ def decisions_table(s: HistoryStore, records: Sequence[AnalysisRecord]) -> pd.Da
 def _baselines(s: HistoryStore, name: str) -> None:
     bs = s.list_baselines(name)
     if not bs:
-        st.caption(f"No baseline frozen for {name}: every shift was analysed on its own (Phase I).")
+        st.caption(f"No baseline frozen for {common.md(name)}: every shift was analysed on its own (Phase I).")
         return
     df = pd.DataFrame([{"baseline #": b.id, "frozen": b.created_at[:16].replace("T", " "), "by": b.created_by,
                         "transform": b.transform, "chart": b.chart_type, "n": b.n, "why": b.reason}
@@ -167,12 +167,13 @@ def render() -> None:
     name = rs.get("rs_history_char")
     c = s.get_characteristic(name)
     if c is not None:
-        lim = common.fmt_limit  # a blank limit reads "none", not "— µm"
+        def lim(v, units):  # a blank limit reads "none", not "— µm"; typed units: text, not markup
+            return common.fmt_limit(v, common.md(units) if units else units)
         st.caption(f"Spec: LSL {lim(c.lsl, c.units)}, USL {lim(c.usl, c.units)}, target {lim(c.target, c.units)}; "
                    f"required index {common.fmt(c.required_index, 3)} (revision {c.revision}).")
     records = list(reversed(s.list_analyses(name, limit=200)))
     if not records:
-        st.info(f"No shift of {name} saved yet.")
+        st.info(f"No shift of {common.md(name)} saved yet.")
         return
     st.plotly_chart(capability_over_shifts_figure(records), width="stretch", key="rs_hist_cap")
     st.caption("Capability of a shift whose chart shows signals (hollow markers) is not meaningful: it "

@@ -266,8 +266,9 @@ def render_checklist(items: tuple[ChecklistItem, ...]) -> None:
         label, fg, bg = STATUS_BADGE[it.status]
         badge = (f"<span style='display:inline-block;min-width:2.6em;text-align:center;font-weight:700;"
                  f"font-size:0.8em;padding:1px 6px;border-radius:4px;color:{fg};background:{bg}'>{label}</span>")
-        lines.append(f"{badge} **{it.name}** — {it.detail}  \n"
-                     f"<span style='color:#5b6770;font-size:0.85em'>rule: {it.rule}</span>")
+        # detail and rule quote figures, units and names from the record: text, never markup
+        lines.append(f"{badge} **{it.name}** — {common.md(it.detail)}  \n"
+                     f"<span style='color:#5b6770;font-size:0.85em'>rule: {common.md(it.rule)}</span>")
     with st.container(border=True):
         st.markdown("**Release checklist** (decision support)")
         st.markdown("\n\n".join(lines), unsafe_allow_html=True)
@@ -299,6 +300,7 @@ def show_flash() -> None:
     msg = rs.pop_flash()
     if msg:
         kind, text = msg
+        # the text was built with every user string passed through common.md already
         {"success": st.success, "warning": st.warning}.get(kind, st.info)(text)
 
 
@@ -323,20 +325,21 @@ def _summary(a: Analysis) -> None:
 
 def _phase_notice(a: Analysis, b: BaselineRecord | None, name: str) -> None:
     if b is None:
-        st.info(f"No baseline is frozen for **{name}** yet: this is a Phase I analysis (transform and "
+        st.info(f"No baseline is frozen for **{common.md(name)}** yet: this is a Phase I analysis (transform and "
                 "limits estimated from the data loaded). Freeze a baseline below once the period is "
                 "stable and its assignable causes are excluded.", icon=common.ICONS["info"])
         return
     st.toggle(f"Chart against the frozen baseline #{b.id} (Phase II)", key="rs_use_baseline",
               help="Off: estimate transform and limits from the data loaded (Phase I).")
-    who = f"frozen by {b.created_by} on {b.created_at[:10]} from {b.n:,} values ({b.reason})"
+    who = (f"frozen by {common.md(b.created_by)} on {b.created_at[:10]} from {b.n:,} values "
+           f"({common.md(b.reason)})")
     if a.phase == "II":
-        st.info(f"**Phase II** — these data are charted against the frozen baseline #{b.id} of **{name}** "
+        st.info(f"**Phase II** — these data are charted against the frozen baseline #{b.id} of **{common.md(name)}** "
                 f"({who}). The baseline's transform ({a.transform.describe().rstrip('.')}) is applied "
                 "*without refitting*, so this shift is judged on the same scale as the baseline.",
                 icon=common.ICONS["frozen"])
     else:
-        st.warning(f"**Phase I** — a baseline (#{b.id}, {who}) exists for **{name}**, but these data are "
+        st.warning(f"**Phase I** — a baseline (#{b.id}, {who}) exists for **{common.md(name)}**, but these data are "
                    "analysed on their own: transform and limits are re-estimated.", icon=common.ICONS["info"])
 
 
@@ -382,15 +385,15 @@ def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> Non
     rs.put("rs_saved", saved)
     rs.put("rs_last_saved", new_id)
     extra = f" (replaces #{earlier})" if earlier is not None else ""
-    rs.flash("success", f"Saved as analysis #{new_id}{extra} for **{history_name(a)}**, shift "
-                        f"{shift}, phase {a.phase}. It is now waiting for review on page 6 · Review.")
+    rs.flash("success", f"Saved as analysis #{new_id}{extra} for **{common.md(history_name(a))}**, shift "
+                        f"{common.md(shift)}, phase {a.phase}. It is now waiting for review on page 6 · Review.")
     st.rerun()
 
 
 def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
     name = history_name(a1)
     st.subheader("Freeze as baseline")
-    st.caption(f"Freezes the Phase I estimate of the data loaded for **{name}**: transform "
+    st.caption(f"Freezes the Phase I estimate of the data loaded for **{common.md(name)}**: transform "
                f"**{a1.transform.name}** fitted to these {a1.n:,} values, centre and within sigma of the "
                f"{common.chart_words(a1.chart.chart)} chart ({len(a1.excluded)} exclusion(s)). Later shifts are then charted "
                "against it without refitting (Phase II). A new freeze replaces it for later shifts; "
@@ -423,7 +426,7 @@ def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
         return
     rs.put("rs_last_baseline", bid)
     rs.put("rs_use_baseline", True)
-    rs.flash("success", f"Baseline #{bid} frozen for **{name}**. Later shifts of {name} are charted "
+    rs.flash("success", f"Baseline #{bid} frozen for **{common.md(name)}**. Later shifts of {common.md(name)} are charted "
                         "against it (Phase II); load the next shift's data and come back here.")
     st.rerun()
 
@@ -446,12 +449,12 @@ def render() -> None:
     if out is None:
         return
     a, b = out
-    st.markdown(f"#### {name}" + (f"  ·  {a.units}" if a.units else "") + f"  ·  phase {a.phase}")
+    st.markdown(f"#### {common.md(name)}" + (f"  ·  {common.md(a.units)}" if a.units else "") + f"  ·  phase {a.phase}")
     _phase_notice(a, b, name)
     _summary(a)
     render_checklist(review_checklist(a))
     for w in a.warnings:
-        st.caption(f"⚑ {w}")
+        st.caption(f"⚑ {common.md(w)}")
     common.guard(_save_section, s, a, b)
     st.subheader("PDF summary")
     src = state.source()

@@ -124,7 +124,8 @@ def record_decision(s: HistoryStore, record: AnalysisRecord, *, decision: str | 
                         supersedes=None if prev is None else prev.id)
     extra = f" It replaces review #{prev.id} ({prev.decision})." if prev is not None else ""
     return True, (f"Review #{rid} recorded: **{DECISION_LABELS[decision]}** for analysis #{record.id} "
-                  f"({record.characteristic}, shift {record.shift or '—'}) by {reviewer}.{extra}")
+                  f"({common.md(record.characteristic)}, shift {common.md(record.shift or '—')}) by "
+                  f"{common.md(reviewer)}.{extra}")
 
 
 # --------------------------------------------------------------------------------------
@@ -162,10 +163,11 @@ def _pick(s: HistoryStore) -> AnalysisRecord | None:
 
 def _header(s: HistoryStore, r: AnalysisRecord) -> None:
     d = r.analysis
-    st.markdown(f"### #{r.id} · {r.characteristic}" + (f" [{d.get('units')}]" if d.get("units") else ""))
+    md = common.md  # everything typed by a person or read from a file is shown as text
+    st.markdown(f"### #{r.id} · {md(r.characteristic)}" + (f" [{md(d.get('units'))}]" if d.get("units") else ""))
     c1, c2, c3, c4 = st.columns(4)
-    c1.markdown(f"**Shift** {r.shift or '—'}  \n**Lot** {r.lot or '—'}")
-    c2.markdown(f"**Operator** {r.operator or '—'}  \n**Saved** {_when(r.created_at)}")
+    c1.markdown(f"**Shift** {md(r.shift) or '—'}  \n**Lot** {md(r.lot) or '—'}")
+    c2.markdown(f"**Operator** {md(r.operator) or '—'}  \n**Saved** {_when(r.created_at)}")
     c3.markdown(f"**Phase** {d.get('phase', '—')}  \n**Baseline** "
                 + (f"#{r.baseline_id}" if r.baseline_id else "none (Phase I)"))
     c4.markdown(f"**n** {r.n:,}  \n**qcnorm** {r.qcnorm_version}")
@@ -177,30 +179,30 @@ def _header(s: HistoryStore, r: AnalysisRecord) -> None:
         st.error(f"The stored measurements no longer match their SHA-256 fingerprint ({r.data_sha256}). "
                  "Do not release on this record; ask the technician to save the shift again.", icon=common.ICONS["stop"])
     if r.note:
-        st.markdown(f"**Technician's note:** {r.note}")
+        st.markdown(f"**Technician's note:** {md(r.note, multiline=True)}")
     if r.supersedes:
         st.caption(f"This record is a correction: it replaces analysis #{r.supersedes}.")
     if d.get("phase") == "II":
         st.info("Phase II: charted against the frozen baseline; transform not refitted. "
-                + str((d.get("transform") or {}).get("reason") or ""), icon=common.ICONS["frozen"])
+                + md((d.get("transform") or {}).get("reason") or ""), icon=common.ICONS["frozen"])
 
 
 def _baseline_and_earlier(s: HistoryStore, r: AnalysisRecord) -> None:
     if r.baseline_id:
         b = s.get_baseline(r.baseline_id)
         st.caption(f"Frozen baseline #{b.id}: transform {b.transform}, {common.chart_words(b.chart_type)} chart, from {b.n:,} "
-                   f"values; frozen by {b.created_by} on {b.created_at[:10]} — {b.reason}")
+                   f"values; frozen by {common.md(b.created_by)} on {b.created_at[:10]} — {common.md(b.reason)}")
     h = s.history(r.characteristic)
     earlier = h[h["id"] < r.id].tail(8)
     if len(earlier):
-        st.markdown(f"**Earlier shifts of {r.characteristic}** (latest {len(earlier)}; all on page 7 · History)")
+        st.markdown(f"**Earlier shifts of {common.md(r.characteristic)}** (latest {len(earlier)}; all on page 7 · History)")
         view = earlier[["id", "shift", "operator", "n", "transform", "cpk", "ppk", "in_control",
                         "violations", "decision"]].rename(columns={"id": "#", "in_control": "in control"})
         st.dataframe(view, hide_index=True, width="stretch",
                      column_config={"cpk": st.column_config.NumberColumn("Cpk", format="%.2f"),
                                     "ppk": st.column_config.NumberColumn("Ppk", format="%.2f")})
     else:
-        st.caption(f"No earlier shifts of {r.characteristic} in the history.")
+        st.caption(f"No earlier shifts of {common.md(r.characteristic)} in the history.")
 
 
 def _chart(s: HistoryStore, r: AnalysisRecord) -> None:
@@ -225,16 +227,16 @@ def _trail(s: HistoryStore, r: AnalysisRecord) -> None:
     st.markdown("**Decisions recorded** (oldest first; none is ever changed or deleted)")
     for v in reviews:
         rep = f" — replaces review #{v.supersedes}" if v.supersedes else ""
-        st.markdown(f"{decision_badge(v.decision)} Review #{v.id} by **{v.reviewer}**, "
+        st.markdown(f"{decision_badge(v.decision)} Review #{v.id} by **{common.md(v.reviewer)}**, "
                     f"{_when(v.created_at)}{rep}", unsafe_allow_html=True)
-        st.markdown(f"> {v.comment or '(no comment)'}")
+        st.markdown(f"> {common.md(v.comment, multiline=True) or '(no comment)'}")
 
 
 def _decision_form(s: HistoryStore, r: AnalysisRecord) -> None:
     st.subheader("Decision")
     prev = r.latest_review
     if prev is not None:
-        st.caption(f"Already decided ({DECISION_LABELS.get(prev.decision, prev.decision)} by {prev.reviewer}). "
+        st.caption(f"Already decided ({DECISION_LABELS.get(prev.decision, prev.decision)} by {common.md(prev.reviewer)}). "
                    f"A new decision is recorded as a correction that replaces review #{prev.id}.")
     with st.form(f"rs_review_form_{r.id}"):
         c1, c2 = st.columns([1, 2])
@@ -285,7 +287,7 @@ def render() -> None:
         if verdict:
             st.caption(verdict)
         for w in r.analysis.get("warnings") or []:
-            st.caption(f"⚑ {w}")
+            st.caption(f"⚑ {common.md(w)}")
     with right:
         ev = evidence_table(r.analysis)
         # a static table wraps long values (chart type, intervals) instead of cutting them off
