@@ -123,12 +123,27 @@ def guard(fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
         return None
 
 
-def run_page(spec: Any) -> None:
-    """Draw one page: title, caution, body inside the error boundary, caution again."""
+def run_page(spec: Any, ctx: Any = None) -> None:
+    """Draw one page: title, caution, the mode notice, body inside the error boundary.
+
+    ``ctx`` (:class:`qcnorm.ui.auth.Context`) says who is signed in; a page the user may
+    not see (registry.allowed) is not drawn, whatever the session asks for.
+    """
+    from . import auth, registry
+
     st.title(spec.title.split("·", 1)[-1].strip())
     if spec.help:
         st.caption(spec.help)
     caution()
+    if ctx is not None:
+        auth.mode_notice(ctx)
+        auth.show_flash()
+        if not registry.allowed(spec, ctx):
+            if ctx.team and ctx.user is None:
+                st.info("Sign in first: this history database has accounts.")
+            else:
+                st.warning("This page is not open to your role.", icon=ICONS["stop"])
+            return
     if spec.needs_data and state.source() is None:
         st.info("No measurements loaded yet. Go to **1 · Load** and choose the demo data, upload a "
                 "file or paste from a spreadsheet.")

@@ -35,14 +35,14 @@ import streamlit as st
 
 from ..analysis import Analysis, Baseline, analyze
 from ..checklist import ChecklistItem, checklist_outcome, review_checklist
-from ..errors import ConfigError, StoreError
+from ..errors import AuthError, ConfigError, StoreError
 from ..report import ReportMeta, build_pdf
 from ..store import AnalysisRecord, BaselineRecord, HistoryStore, data_sha256, default_db_url
-from . import common, compute, state
+from . import auth, common, compute, state
 from . import release_state as rs
 
 __all__ = [
-    "open_store", "store", "show_database", "history_name", "frozen_baseline", "shift_analysis",
+    "open_store", "store", "show_database", "show_chain", "history_name", "frozen_baseline", "shift_analysis",
     "save_shift", "freeze_baseline", "Reproduction", "reproduce", "saved_pdf", "current_pdf",
     "render_checklist", "pdf_section", "render",
 ]
@@ -82,6 +82,26 @@ def store() -> HistoryStore:
 
 def show_database(s: HistoryStore) -> None:
     st.caption(f"History database: `{s.url}`  (set QCNORM_DB to use another file or a server)")
+
+
+def show_chain(s: HistoryStore) -> bool:
+    """Check the record chain now (HistoryStore.verify_chain) and say so prominently:
+    "record intact", or which record does not match. Returns True when intact."""
+    chk = common.guard(s.verify_chain)
+    if chk is None:
+        return False
+    if chk.ok:
+        st.success(f"**Record intact** — all {chk.checked:,} records match their chained SHA-256 "
+                   "fingerprints (checked just now): nothing was changed or removed after it was written.",
+                   icon=":material/verified:")
+        return True
+    where = common.md(chk.first_bad) if chk.first_bad else "a record"
+    st.error(f"**Record NOT intact** — {where} does not match what was written"
+             + (f": {common.md(chk.detail)}" if chk.detail else "")
+             + f". Checked {chk.checked:,} records. Do not release on records from this one on; tell the "
+             "quality manager and compare with the last backup or the printed PDFs.",
+             icon=":material/gpp_bad:")
+    return False
 
 
 def history_name(a: Analysis) -> str:
@@ -139,19 +159,24 @@ def _save_characteristic(s: HistoryStore, a: Analysis, who: str) -> str:
 
 
 def save_shift(s: HistoryStore, a: Analysis, baseline: BaselineRecord | None, *, operator: str,
-               shift: str, lot: str = "", note: str = "", supersedes: int | None = None) -> int:
-    """Save the analysis with its measurements; returns the new analysis id."""
+               shift: str, lot: str = "", note: str = "", supersedes: int | None = None,
+               saved_by: Any = None) -> int:
+    """Save the analysis with its measurements; returns the new analysis id.
+
+    ``saved_by`` is the signed-in account (team mode; the operator is then its full name),
+    None in single-user mode (the operator is the name typed)."""
     name = _save_characteristic(s, a, operator)
     return s.save_analysis(
         name, analysis=a.to_dict(), values=a.values, subgroups=_labels(a), shift=shift, lot=lot,
         operator=operator, note=note, qcnorm_version=a.version,
         baseline_id=baseline.id if (baseline is not None and a.phase == "II") else None,
-        supersedes=supersedes,
+        supersedes=supersedes, saved_by=saved_by,
     )
 
 
-def freeze_baseline(s: HistoryStore, a: Analysis, *, by: str, reason: str) -> int:
-    """Freeze a Phase I analysis as the characteristic's baseline; returns the baseline id."""
+def freeze_baseline(s: HistoryStore, a: Analysis, *, by: str, reason: str, actor: Any = None) -> int:
+    """Freeze a Phase I analysis as the characteristic's baseline; returns the baseline id.
+    ``actor``: the signed-in supervisor (team mode) or None (single-user mode)."""
     if a.phase != "I":
         raise ConfigError("Only a Phase I analysis (transform fitted to these data) can be frozen as a "
                           "baseline. Turn off 'chart against the frozen baseline' first.")
@@ -160,7 +185,7 @@ def freeze_baseline(s: HistoryStore, a: Analysis, *, by: str, reason: str) -> in
     record = {**b.to_dict(), "transform": b.transform_name, "center": b.chart.center,
               "sigma": b.chart.sigma_within, "chart_type": b.chart.chart}
     return s.save_baseline(name, baseline=record, values=a.values, subgroups=_labels(a),
-                           created_by=by, reason=reason)
+                           created_by=by, reason=reason, actor=actor)
 
 
 # --------------------------------------------------------------------------------------
@@ -350,9 +375,18 @@ def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> Non
     fingerprint = "|".join((history_name(a), data_sha256(a.values, _labels(a)),
                             repr(a.to_dict()["settings"])))
     earlier = (rs.get("rs_saved") or {}).get(fingerprint)
+    ctx = auth.current()
+    user = ctx.user if ctx.team else None
+    if ctx.team and not auth.can(ctx, "save"):
+        st.warning(f"Saving a shift is for {auth.who_may('save')}. You are signed in as "
+                   f"{auth.user_words(user)}.", icon=common.ICONS["stop"])
+        return
     with st.form("rs_save_form"):
         c1, c2, c3 = st.columns(3)
-        c1.text_input("Operator (your name) *", key="rs_operator")
+        if user is not None:  # team mode: who saves is the signed-in account, never a typed name
+            c1.markdown(f"**Saved by**  \n{common.md(user.full_name)} ({common.md(user.username)})")
+        else:
+            c1.text_input("Operator (your name) *", key="rs_operator")
         c2.text_input("Shift label *", key="rs_shift", placeholder="e.g. 2026-11-25 night")
         c3.text_input("Lot", key="rs_lot", placeholder="optional")
         st.text_area("Note", key="rs_note", height=80,
@@ -363,7 +397,8 @@ def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> Non
         go_ = st.form_submit_button("Save this shift", type="primary")
     if not go_:
         return
-    operator, shift = rs.get("rs_operator").strip(), rs.get("rs_shift").strip()
+    operator = user.full_name if user is not None else rs.get("rs_operator").strip()
+    shift = rs.get("rs_shift").strip()
     missing = [w for w, v in (("the operator's name", operator), ("a shift label", shift)) if not v]
     if missing:
         st.error(f"Not saved: enter {' and '.join(missing)} — every saved shift says who measured it "
@@ -375,7 +410,10 @@ def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> Non
         return
     try:
         new_id = save_shift(s, a, b, operator=operator, shift=shift, lot=rs.get("rs_lot").strip(),
-                            note=rs.get("rs_note").strip(), supersedes=earlier)
+                            note=rs.get("rs_note").strip(), supersedes=earlier, saved_by=user)
+    except AuthError as exc:
+        st.error(f"Not saved: {common.md(str(exc))}", icon=common.ICONS["stop"])
+        return
     except StoreError as exc:
         st.error(f"Not saved — the history database did not accept it. Nothing already saved was "
                  f"changed, and your entries are still in the form. {exc}", icon=common.ICONS["stop"])
@@ -398,9 +436,18 @@ def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
                f"{common.chart_words(a1.chart.chart)} chart ({len(a1.excluded)} exclusion(s)). Later shifts are then charted "
                "against it without refitting (Phase II). A new freeze replaces it for later shifts; "
                "earlier records keep the baseline they were charted against.")
+    ctx = auth.current()
+    user = ctx.user if ctx.team else None
+    if ctx.team and not auth.can(ctx, "freeze"):
+        st.info(f"Freezing a baseline is for {auth.who_may('freeze')}. You are signed in as "
+                f"{auth.user_words(user)}.", icon=common.ICONS["info"])
+        return
     with st.form("rs_freeze_form"):
         c1, c2 = st.columns([1, 2])
-        c1.text_input("Frozen by *", key="rs_freeze_by")
+        if user is not None:  # team mode: the signed-in supervisor
+            c1.markdown(f"**Frozen by**  \n{common.md(user.full_name)} ({common.md(user.username)})")
+        else:
+            c1.text_input("Frozen by *", key="rs_freeze_by")
         c2.text_input("Why this period is a good baseline *", key="rs_freeze_reason",
                       placeholder="e.g. ten stable days after the November tool change")
         if not a1.in_control:
@@ -409,7 +456,8 @@ def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
         go_ = st.form_submit_button("Freeze as baseline")
     if not go_:
         return
-    by, why = rs.get("rs_freeze_by").strip(), rs.get("rs_freeze_reason").strip()
+    by = user.full_name if user is not None else rs.get("rs_freeze_by").strip()
+    why = rs.get("rs_freeze_reason").strip()
     missing = [w for w, v in (("who freezes it", by), ("why this period is a good baseline", why)) if not v]
     if missing:
         st.error(f"Not frozen: enter {' and '.join(missing)}.", icon=common.ICONS["stop"])
@@ -419,7 +467,10 @@ def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
                  "assignable causes on 3 · Stability first, or tick the box to freeze anyway.", icon=common.ICONS["stop"])
         return
     try:
-        bid = freeze_baseline(s, a1, by=by, reason=why)
+        bid = freeze_baseline(s, a1, by=by, reason=why, actor=user)
+    except AuthError as exc:
+        st.error(f"Not frozen: {common.md(str(exc))}", icon=common.ICONS["stop"])
+        return
     except StoreError as exc:
         st.error(f"Not frozen — the history database did not accept it. Nothing already saved was "
                  f"changed. {exc}", icon=common.ICONS["stop"])
