@@ -14,7 +14,9 @@ escapes is a bug in qcnorm.
           ├── NotFittedError         a transform used before fit()
           ├── ReadError              a file or pasted text that cannot be read as measurements
           ├── ConfigError            an option with an unknown or inconsistent value
-          └── StoreError             the history database cannot be read or written
+          ├── StoreError             the history database cannot be read or written
+          └── AuthError              sign-in refused (wrong password, locked, disabled)
+               └── PermissionDenied  the signed-in account may not do this (role, same person)
 
     UserWarning
      └── QcnormWarning               soft problems (small n, coarse resolution, approximate p)
@@ -34,6 +36,8 @@ __all__ = [
     "ReadError",
     "ConfigError",
     "StoreError",
+    "AuthError",
+    "PermissionDenied",
     "QcnormWarning",
 ]
 
@@ -64,6 +68,14 @@ class ConfigError(QcnormError):
 
 class StoreError(QcnormError):
     """The history database could not be read or written."""
+
+
+class AuthError(QcnormError):
+    """A sign-in or signature was refused: wrong password, locked or disabled account."""
+
+
+class PermissionDenied(AuthError):
+    """The acting account may not do this; the message says who may."""
 
 
 class QcnormWarning(UserWarning):

@@ -102,6 +102,10 @@ def test_four_processes_write_concurrently(tmp_path: Path):
                 assert rec.values.tolist() == vals
                 assert rec.data_sha256 == _expected_sha(vals)
         assert all(store.verify(r.id) for r in records)
+        # one unbroken record chain: every save sealed in commit order, no gaps, no reuse
+        check = store.verify_chain()
+        assert check.ok, check.detail
+        assert check.checked == check.head_seq >= 2 * WRITERS * PER_WRITER  # each save: record + audit event
         # writers really interleaved (ids of one writer are not one solid block)
         ids_w0 = sorted(r.id for r in records if r.operator == "writer 0")
         assert ids_w0[-1] - ids_w0[0] + 1 > PER_WRITER
@@ -144,6 +148,8 @@ def test_writer_killed_mid_transaction(tmp_path: Path):
         # the dead writer's lock is gone: a new write goes through at once
         new = store.save_analysis(CHAR, analysis={}, values=[1.0], qcnorm_version="0.1.0")
         assert store.verify(new)
+        check = store.verify_chain()  # the killed writer left no half-sealed record
+        assert check.ok, check.detail
 
 
 # Schema version 1 exactly as qcnorm 0.1 created it on SQLite (do not edit).
@@ -211,7 +217,7 @@ def test_previous_schema_version_opens_and_is_migrated(tmp_path: Path):
     path = tmp_path / "v1.sqlite3"
     expected = _write_v1_file(path)
     with HistoryStore(path) as store:
-        assert store.schema_version == SCHEMA_VERSION == 2
+        assert store.schema_version == SCHEMA_VERSION == 3
         rec = store.get_analysis(1)
         assert rec.values.tolist() == expected["values"] and rec.subgroups == expected["labels"]
         assert rec.data_sha256 == expected["sha"] and store.verify(1)
@@ -228,35 +234,39 @@ def test_previous_schema_version_opens_and_is_migrated(tmp_path: Path):
         indexes = {r[0] for r in con.execute("SELECT name FROM sqlite_master WHERE type = 'index'")}
     finally:
         con.close()
-    assert rows == [(1,), (2,)]
+    assert rows == [(1,), (2,), (3,)]
     assert {"ix_analysis_characteristic", "ix_review_analysis"} <= indexes
 
 
 def test_failed_migration_leaves_previous_version(tmp_path: Path, monkeypatch):
-    """Each migration is one transaction: a failure part-way leaves version 1 intact."""
-    import qcnorm.store as store_mod
+    """Each schema step is one transaction: a failure part-way leaves version 1 intact."""
+    import qcnorm.store.migrate as migrate_mod
 
     path = tmp_path / "v1.sqlite3"
     _write_v1_file(path)
-    real = store_mod._MIGRATIONS[2]
+    real = migrate_mod._run_step
 
-    def broken(conn):
-        real(conn)
-        raise store_mod.sa.exc.OperationalError("simulated", {}, Exception("disk I/O error"))
+    def broken(conn, current, version):
+        real(conn, current, version)
+        if version == 2:
+            raise migrate_mod.sa.exc.OperationalError("simulated", {}, Exception("disk I/O error"))
 
-    monkeypatch.setitem(store_mod._MIGRATIONS, 2, broken)
+    monkeypatch.setattr(migrate_mod, "_run_step", broken)
     with pytest.raises(StoreError, match="upgrade the schema to version 2"):
         HistoryStore(path)
     con = sqlite3.connect(path)
     try:
         assert con.execute("SELECT max(version) FROM schema_version").fetchone()[0] == 1
         cols = {r[1] for r in con.execute("PRAGMA table_info(analysis)")}
+        tables = {r[0] for r in con.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
     finally:
         con.close()
     assert "n_violations" not in cols  # the ALTER TABLE was rolled back with the rest
-    monkeypatch.setitem(store_mod._MIGRATIONS, 2, real)
+    assert "alembic_version" not in tables  # so was the adoption stamp
+    monkeypatch.setattr(migrate_mod, "_run_step", real)
     with HistoryStore(path) as store:
-        assert store.schema_version == 2 and store.get_analysis(1).violations == 2
+        assert store.schema_version == SCHEMA_VERSION and store.get_analysis(1).violations == 2
+        assert store.verify_chain().ok
 
 
 @pytest.mark.parametrize(
