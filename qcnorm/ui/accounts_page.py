@@ -35,7 +35,7 @@ def _add(s, admin) -> None:
     username = str(ss.get("qc_acc_username") or "").strip()
     full = str(ss.get("qc_acc_full_name") or "").strip()
     role = ss.get("qc_acc_role")
-    pw, pw2 = auth.take_password("qc_acc_password"), auth.take_password("qc_acc_password2")
+    pw, pw2 = auth.take_passwords("qc_acc_password", "qc_acc_password2")
     if not username or not full or role not in ROLES or not pw:
         _done("error", "Account not added: enter the user name, the full name, the role and a first password.")
         return

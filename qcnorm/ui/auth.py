@@ -29,7 +29,7 @@ import streamlit as st
 from . import common
 
 __all__ = ["Context", "context", "current", "current_user", "sign_in", "sign_out", "can", "who_may",
-           "password_key", "take_password", "forget_passwords", "mode_notice", "sidebar",
+           "password_key", "take_password", "take_passwords", "forget_passwords", "mode_notice", "sidebar",
            "ROLE_WORDS", "user_words"]
 
 #: what each role may do in the app (the store checks the same on every write)
@@ -164,14 +164,19 @@ def password_key(base: str) -> str:
     return f"{base}_{st.session_state.get('qc_password_round', 0)}"
 
 
+def take_passwords(*bases: str) -> list[str]:
+    """The passwords typed in the fields ``bases``; the next run draws fresh, empty fields."""
+    ss = st.session_state
+    keys = [password_key(b) for b in bases]
+    values = [str(ss.get(k) or "") for k in keys]
+    ss["qc_password_round"] = int(ss.get("qc_password_round", 0)) + 1
+    ss["qc_forget"] = list(ss.get("qc_forget") or []) + keys
+    return values
+
+
 def take_password(base: str) -> str:
     """The password typed in the field ``base``; the next run draws a fresh, empty field."""
-    ss = st.session_state
-    key = password_key(base)
-    value = str(ss.get(key) or "")
-    ss["qc_password_round"] = int(ss.get("qc_password_round", 0)) + 1
-    ss.setdefault("qc_forget", []).append(key)
-    return value
+    return take_passwords(base)[0]
 
 
 def forget_passwords() -> None:

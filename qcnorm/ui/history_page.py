@@ -149,6 +149,7 @@ def render() -> None:
         st.info("The history database cannot be opened, so there is no history to show now.")
         return
     rp.show_database(s)
+    rp.show_chain(s)  # every record re-checked against its chained SHA-256, prominently
     chars = [c.name for c in s.list_characteristics()]
     if not chars:
         st.info("Nothing saved yet. Save a shift on page 5 · Save & baseline to start the history.")

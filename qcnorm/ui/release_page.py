@@ -150,11 +150,11 @@ def _labels(a: Analysis) -> list[str] | None:
     return None if a.subgroups is None else [str(g) for g in a.subgroups]
 
 
-def _save_characteristic(s: HistoryStore, a: Analysis, who: str) -> str:
+def _save_characteristic(s: HistoryStore, a: Analysis, who: str, actor: Any = None) -> str:
     name = history_name(a)
     st_ = a.settings
     s.save_characteristic(name, units=a.units, lsl=st_.lsl, usl=st_.usl, target=st_.target,
-                          required_index=st_.required_index, created_by=who)
+                          required_index=st_.required_index, created_by=who, actor=actor)
     return name
 
 
@@ -165,7 +165,7 @@ def save_shift(s: HistoryStore, a: Analysis, baseline: BaselineRecord | None, *,
 
     ``saved_by`` is the signed-in account (team mode; the operator is then its full name),
     None in single-user mode (the operator is the name typed)."""
-    name = _save_characteristic(s, a, operator)
+    name = _save_characteristic(s, a, operator, saved_by)
     return s.save_analysis(
         name, analysis=a.to_dict(), values=a.values, subgroups=_labels(a), shift=shift, lot=lot,
         operator=operator, note=note, qcnorm_version=a.version,
@@ -180,7 +180,7 @@ def freeze_baseline(s: HistoryStore, a: Analysis, *, by: str, reason: str, actor
     if a.phase != "I":
         raise ConfigError("Only a Phase I analysis (transform fitted to these data) can be frozen as a "
                           "baseline. Turn off 'chart against the frozen baseline' first.")
-    name = _save_characteristic(s, a, by)
+    name = _save_characteristic(s, a, by, actor)
     b = a.to_baseline(note=reason)
     record = {**b.to_dict(), "transform": b.transform_name, "center": b.chart.center,
               "sigma": b.chart.sigma_within, "chart_type": b.chart.chart}

@@ -25,7 +25,7 @@ from . import auth, common
 from . import release_page as rp
 from . import release_state as rs
 
-__all__ = ["DECISION_LABELS", "SIGNATURE_MEANING", "meaning_text", "decision_badge", "awaiting_table", "evidence_table", "record_decision", "render"]
+__all__ = ["DECISION_LABELS", "SIGNATURE_MEANING", "meaning_text", "reviewer_name", "decision_badge", "awaiting_table", "evidence_table", "record_decision", "render"]
 
 _fmt = common.fmt
 DECISION_LABELS = {"approve": "Approve", "hold": "Hold", "reject": "Reject"}
@@ -112,8 +112,8 @@ SIGNATURE_MEANING = {
 def meaning_text(record: AnalysisRecord, decision: str) -> str:
     """The meaning of a signature on this record, in words (Markdown-safe)."""
     lot = (f"lot **{common.md(record.lot)}**" if record.lot else "the lot of this shift (no lot number saved)")
-    lot += (f" — {common.md(record.characteristic)}, shift {common.md(record.shift or '—')}, "
-            f"analysis #{record.id}")
+    lot += (f" ({common.md(record.characteristic)}, shift {common.md(record.shift or '—')}, "
+            f"analysis #{record.id})")
     return SIGNATURE_MEANING[decision].format(lot=lot)
 
 
@@ -265,7 +265,7 @@ def _trail(s: HistoryStore, r: AnalysisRecord) -> None:
     for v in reviews:
         rep = f" — replaces review #{v.supersedes}" if v.supersedes else ""
         st.markdown(f"{decision_badge(v.decision)} Review #{v.id} by "
-                    f"**{common.md(getattr(v, 'signer_full_name', None) or v.reviewer)}**, "
+                    f"**{common.md(reviewer_name(v))}**, "
                     f"{_when(v.created_at)}{rep}", unsafe_allow_html=True)
         st.markdown(f"> {common.md(v.comment, multiline=True) or '(no comment)'}")
         st.caption(_trail_signature(v))
@@ -297,6 +297,11 @@ def _refusal(ctx: Any, r: AnalysisRecord) -> str | None:
     return None
 
 
+def reviewer_name(v: Any) -> str:
+    """Who decided: the signer's full name (electronic signature) or the name typed."""
+    return (v.signer_full_name or v.reviewer) if getattr(v, "signed", False) else v.reviewer
+
+
 def _trail_signature(v: Any) -> str:
     """One line saying whether a review is an electronic signature, and whose."""
     if getattr(v, "signed", False):
@@ -312,7 +317,7 @@ def _decision_form(s: HistoryStore, r: AnalysisRecord) -> None:
     prev = r.latest_review
     if prev is not None:
         st.caption(f"Already decided ({DECISION_LABELS.get(prev.decision, prev.decision)} by "
-                   f"{common.md(getattr(prev, 'signer_full_name', None) or prev.reviewer)}). A new decision is "
+                   f"{common.md(reviewer_name(prev))}). A new decision is "
                    f"recorded as a correction that replaces review #{prev.id}.")
     signer = None
     if ctx.team:
@@ -393,6 +398,7 @@ def render() -> None:
         st.info("The history database cannot be opened, so there is nothing to review now.")
         return
     rp.show_database(s)
+    rp.show_chain(s)  # never sign on a record that was changed after it was written
     r = common.guard(_pick, s)
     if r is None:
         return
