@@ -268,3 +268,28 @@ def test_single_user_mode_says_so_on_every_page(tmp_path, monkeypatch):
         _go(at, page)
         notes = "\n".join(str(i.value) for i in at.info)
         assert "Single-user mode" in notes and "not electronic signatures" in notes, page
+
+
+def test_lockout_after_repeated_wrong_passwords_and_an_administrator_unlocks(team_db):
+    from qcnorm.store import MAX_FAILURES
+
+    at = AppTest.from_file(APP, default_timeout=90)
+    _run(at)
+    for _ in range(MAX_FAILURES):
+        _sign_in(at, "tina", "guess-again")
+    _sign_in(at, "tina")  # the right password, but the account is locked now
+    assert at.session_state["qc_user"] is None
+    assert "locked" in "\n".join(str(e.value) for e in at.error).lower()
+    _sign_in(at, "ada")
+    _go(at, "accounts")
+    at.selectbox(key="qc_acc_pick").set_value("tina")
+    _run(at)
+    _button(at, "Unlock").click()
+    _run(at)
+    assert "unlock done" in _texts(at)
+    _sign_out(at)
+    _sign_in(at, "tina")
+    assert at.session_state["qc_user"].username == "tina"
+    with HistoryStore(team_db) as s:
+        actions = [e.action for e in s.audit_events()]
+    assert "lockout" in actions and any("unlock" in a for a in actions), actions

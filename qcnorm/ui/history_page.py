@@ -122,9 +122,11 @@ def decisions_table(s: HistoryStore, records: Sequence[AnalysisRecord]) -> pd.Da
             rows.append({"review #": v.id, "analysis #": r.id, "shift": r.shift, "decision": v.decision,
                          "reviewer": v.reviewer, "comment": v.comment,
                          "when (UTC)": v.created_at[:16].replace("T", " "),
+                         "signature": (f"signed by {v.signer_username} ({v.meaning})" if getattr(v, "signed", False)
+                                       else "none (single-user mode)"),
                          "replaces review #": v.supersedes})
     df = pd.DataFrame(rows, columns=["review #", "analysis #", "shift", "decision", "reviewer", "comment",
-                                     "when (UTC)", "replaces review #"])
+                                     "when (UTC)", "signature", "replaces review #"])
     df["replaces review #"] = df["replaces review #"].astype("Int64")
     return df.sort_values("review #", ascending=False, ignore_index=True)
 
