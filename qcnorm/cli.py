@@ -1,4 +1,5 @@
-"""Command-line interface: ``python -m qcnorm analyze FILE ...`` (and ``batch``).
+"""Command-line interface: ``python -m qcnorm analyze FILE ...`` (and ``batch``; ``users``
+and ``store verify`` live in ``cli_store.py``).
 
 Exit codes (stable contract): 0 ok, 2 bad input (one clear message on stderr, no
 traceback), 1 internal error (a short message; set QCNORM_DEBUG=1 for the traceback).
@@ -73,6 +74,9 @@ def build_parser() -> argparse.ArgumentParser:
     b.add_argument("--chart", default="auto", choices=["auto", "individuals", "xbar_r", "xbar_s"])
     b.add_argument("--rules", default="western_electric", choices=["western_electric", "nelson"])
     b.add_argument("--json", action="store_true", help="print the summary rows as JSON")
+    from .cli_store import add_parsers
+
+    add_parsers(sub)
     return p
 
 
@@ -249,7 +253,13 @@ def _in_cli_words(message: str) -> str:
     return message
 
 
-COMMANDS = {"analyze": _cmd_analyze, "batch": _cmd_batch}
+def _cmd_users_or_store(args: argparse.Namespace) -> int:
+    from .cli_store import COMMANDS as STORE_COMMANDS
+
+    return STORE_COMMANDS[args.command](args)
+
+
+COMMANDS = {"analyze": _cmd_analyze, "batch": _cmd_batch, "users": _cmd_users_or_store, "store": _cmd_users_or_store}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -2,7 +2,7 @@
 
 External references: SQLite's own ``PRAGMA integrity_check`` judges the file after a
 writer is killed; data digests are recomputed with ``hashlib.sha256`` (FIPS 180-4) over
-the canonical encoding documented in qcnorm/store.py; the frozen version-1 DDL below is
+the canonical encoding documented in qcnorm/store/__init__.py; the frozen version-1 DDL below is
 the schema qcnorm 0.1 wrote (SQLite dialect), kept as text so later code cannot change it.
 """
 

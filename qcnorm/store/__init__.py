@@ -42,7 +42,9 @@ Reliability
 -----------
 Every write is one transaction. On SQLite the file runs in WAL journal mode with
 foreign keys on and a 30 s busy timeout, and write transactions start with
-``BEGIN IMMEDIATE`` so concurrent writers queue instead of failing. A process that
+``BEGIN IMMEDIATE`` so concurrent writers queue instead of failing; on PostgreSQL every
+write transaction first locks the one row of ``chain_head`` (``SELECT … FOR UPDATE``),
+so writers queue there and the record chain stays in commit order. A process that
 dies inside a transaction leaves no trace of it. Database errors (locked, disk full,
 server unreachable, damaged file) become :class:`~qcnorm.errors.StoreError` with the
 database URL (password masked) and the next step.

@@ -166,9 +166,11 @@ class UsersRoom(AuditRoom):
         if not row["active"]:
             raise PermissionDenied(f"The account {row['username']!r} is disabled. Ask an administrator.")
         if row["role"] not in roles:
+            why = (" (administrators manage accounts and may not sign unless an administrator turns on the store "
+                   "setting allowing it)") if duty == "sign_review" and row["role"] == "administrator" else ""
             raise PermissionDenied(
                 f"{row['full_name']} ({row['username']}, {row['role']}) may not {words}: "
-                f"that needs {_a_or_an(allowed)} account."
+                f"that needs {_a_or_an(allowed)} account{why}."
             )
         return {"id": int(row["id"]), "username": row["username"], "full_name": row["full_name"],
                 "role": row["role"], "label": None}
