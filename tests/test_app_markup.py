@@ -166,3 +166,54 @@ def test_escaping_helpers():
     assert md("a\n# b", multiline=True) == "a  \n\\# b" and md("a\nb") == "a b"
     assert md(None) == "" and esc(None) == ""
     assert esc("<b>\"x\" & 'y'</b>") == "&lt;b&gt;&quot;x&quot; &amp; &#x27;y&#x27;&lt;/b&gt;"
+
+
+def test_markup_in_account_names_is_shown_as_text_in_team_mode(tmp_path, monkeypatch):
+    """Team mode: a full name with markup (set by an administrator) on the sidebar, the save
+    and review pages, the signing box, the decision trail, history, audit and accounts."""
+    db = tmp_path / "team.sqlite3"
+    monkeypatch.setenv("QCNORM_DB", str(db))
+    with HistoryStore(db) as s:
+        ada = s.add_user("ada", EVIL, "administrator", "admin-pass-9431")
+        s.add_user("tina", EVIL, "technician", "tech-pass-5520", actor=ada)
+        s.add_user("sam", EVIL, "supervisor", "super-pass-7718", actor=ada)
+
+    def sign_in(at, user, pw):
+        at.text_input(key="qc_signin_username").set_value(user)
+        next(t for t in at.text_input if t.label == "Password").set_value(pw)
+        next(b for b in at.button if b.label == "Sign in").click()
+        _run(at)
+
+    def check(at, page, seen):
+        _check_page(at, page, seen=seen)
+        side = [str(c.value) for c in at.sidebar.caption]
+        assert not [t for t in side if _MD_BAD.search(t)], side
+
+    seen: dict[str, int] = {}
+    at = AppTest.from_file(APP, default_timeout=90)
+    _run(at)
+    sign_in(at, "tina", "tech-pass-5520")
+    check(at, "load (team)", seen)
+    _go(at, "release")
+    check(at, "release (team)", seen)
+    at.text_input(key="rs_shift").set_value(EVIL)
+    next(b for b in at.button if b.label == "Save this shift").click()
+    _run(at)
+    check(at, "release (team, saved)", seen)
+    at.sidebar.button(key="qc_sign_out").click()
+    _run(at)
+    sign_in(at, "sam", "super-pass-7718")
+    _go(at, "review")
+    at.radio(key="rs_decision").set_value("hold")
+    _run(at)
+    check(at, "review (team)", seen)
+    at.text_area(key="rs_comment").set_value(EVIL)
+    next(t for t in at.text_input if t.label.startswith("Your password")).set_value("super-pass-7718")
+    next(b for b in at.button if b.label == "Sign decision").click()
+    _run(at)
+    assert "Review #1 recorded" in "\n".join(str(x.value) for x in at.success)
+    check(at, "review (team, signed)", seen)
+    for page in ("history", "audit"):
+        _go(at, page)
+        check(at, page + " (team)", seen)
+    assert seen["review (team, signed)"] > 0, seen  # the name is shown, escaped
