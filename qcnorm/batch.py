@@ -245,9 +245,10 @@ def run_batch(
     progress: Callable[[int, int], None] | bool | None = None,
     transform: str = "auto",
     chart: str = "auto",
-    rules: str = "western_electric",
+    rules: str = "beyond_limits",
     round_lambda: bool = True,
     include_censored: bool = False,
+    zeros: str = "censor",
 ) -> BatchResult:
     """Analyse every characteristic of a wide or long file.
 
@@ -266,7 +267,7 @@ def run_batch(
     pdf_dir : path, optional
         Write one PDF summary per characteristic into this folder.
     progress : callable(done, total) or True for a bar on stderr.
-    transform, chart, rules, round_lambda : as for :func:`qcnorm.analyze`.
+    transform, chart, rules, round_lambda, zeros : as for :func:`qcnorm.analyze`.
     include_censored : as for :func:`qcnorm.read_measurements`.
     """
     from .data import read_all, split_units
@@ -287,7 +288,7 @@ def run_batch(
         progress = None
 
     found = read_all(source, subgroup=subgroup, sheet=sheet, include_censored=include_censored)
-    opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda}
+    opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda, "zeros": zeros}
     tasks, rows = [], []
     for header, m in found.items():
         name = split_units(header)[0] or header  # "Ra [µm]" -> "Ra": the name specs use

@@ -32,6 +32,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from ._results import Result
+from .control import FalseAlarmRate
 
 __all__ = [
     "ChecklistItem",
@@ -110,7 +111,7 @@ def analysis_dict(analysis: Any) -> dict[str, Any]:
     )
 
 
-_RULE_NAMES = {"western_electric": "Western Electric", "nelson": "Nelson"}
+_RULE_NAMES = {"beyond_limits": "beyond-the-limits", "western_electric": "Western Electric", "nelson": "Nelson"}
 
 
 def _g(v: Any, digits: int = 3) -> str:
@@ -152,6 +153,10 @@ def _item_in_control(d: Mapping[str, Any]) -> ChecklistItem:
             f"{len(viol)} signal{'s' if len(viol) != 1 else ''} ({', '.join(kinds)}) at point"
             f"{'s' if len(pts) != 1 else ''} {shown}: find and remove the causes before judging capability."
         )
+    # the expected false alarms of these rules (qcnorm.control.false_alarm_rate), in words
+    fa = FalseAlarmRate.from_dict(c.get("false_alarm") or {})
+    if fa is not None:
+        detail += f" {fa.plain_words()}"
     return ChecklistItem("in_control", name, bool(in_control), detail, rule)
 
 

@@ -16,6 +16,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from ._version import __version__
+from .control import DEFAULT_RULES, RULE_SETS
 from .errors import QcnormError
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
@@ -49,7 +50,15 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--required-index", type=float, default=1.33)
     a.add_argument("--transform", default="auto", choices=["auto", "none", "log", "boxcox", "yeojohnson", "johnson"])
     a.add_argument("--chart", default="auto", choices=["auto", "individuals", "xbar_r", "xbar_s"])
-    a.add_argument("--rules", default="western_electric", choices=["western_electric", "nelson"])
+    a.add_argument("--rules", default=DEFAULT_RULES, choices=list(RULE_SETS),
+                   help="run rules for the stability verdict (default %(default)s: a point beyond the limits)")
+    a.add_argument("--exact-lambda", action="store_true",
+                   help="use the maximum-likelihood Box–Cox λ as estimated (default: round it to "
+                        "−1, −0.5, 0, 0.5, 1 or 2 when that value lies inside its 95 %% interval)")
+    a.add_argument("--zeros", default="censor", choices=["censor", "exclude"],
+                   help="readings of 0 that look rounded down by the gauge: 'censor' (default) fits them as "
+                        "values between 0 and half the gauge step so log/Box–Cox stay candidates; "
+                        "'exclude' keeps them as zeros (log/Box–Cox then not applicable)")
     a.add_argument("--include-censored", action="store_true",
                    help="use '<0.05'-style values at their limit instead of excluding them")
     a.add_argument("--json", action="store_true", help="print the analysis as JSON")
@@ -72,7 +81,12 @@ def build_parser() -> argparse.ArgumentParser:
     b.add_argument("--jobs", type=int, default=0, help="worker processes (0 = one per core, the default)")
     b.add_argument("--transform", default="auto", choices=["auto", "none", "log", "boxcox", "yeojohnson", "johnson"])
     b.add_argument("--chart", default="auto", choices=["auto", "individuals", "xbar_r", "xbar_s"])
-    b.add_argument("--rules", default="western_electric", choices=["western_electric", "nelson"])
+    b.add_argument("--rules", default=DEFAULT_RULES, choices=list(RULE_SETS),
+                   help="run rules for the stability verdict (default %(default)s: a point beyond the limits)")
+    b.add_argument("--exact-lambda", action="store_true",
+                   help="use the maximum-likelihood Box–Cox λ as estimated, never rounded")
+    b.add_argument("--zeros", default="censor", choices=["censor", "exclude"],
+                   help="readings of 0 below the gauge step: censored (default) or kept as zeros")
     b.add_argument("--json", action="store_true", help="print the summary rows as JSON")
     from .cli_store import add_parsers
 
@@ -91,7 +105,7 @@ def _cmd_batch(args: argparse.Namespace) -> int:
     res = run_batch(
         args.file, specs=args.specs, subgroup=args.subgroup, sheet=args.sheet, jobs=args.jobs,
         pdf_dir=args.pdf_dir, progress=sys.stderr.isatty(), transform=args.transform,
-        chart=args.chart, rules=args.rules,
+        chart=args.chart, rules=args.rules, round_lambda=not args.exact_lambda, zeros=args.zeros,
     )
     df = res.frame()
     if args.out:
@@ -219,6 +233,7 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
     res = analyze(
         m, lsl=args.lsl, usl=args.usl, target=args.target, transform=args.transform,
         chart=args.chart, rules=args.rules, required_index=args.required_index,
+        round_lambda=not args.exact_lambda, zeros=args.zeros,
     )
     d = res.to_dict()
     if args.pdf:

@@ -45,6 +45,7 @@ import numpy as np
 from ._version import __version__
 from .caution import CAUTION
 from .checklist import ChecklistItem, analysis_dict, checklist_outcome, review_checklist
+from .control import FalseAlarmRate
 from .errors import ConfigError, QcnormError
 
 __all__ = [
@@ -84,7 +85,7 @@ CAUTION_TEXT = CAUTION
 CHART_NAMES = {"individuals": "individuals and moving range", "xbar_r": "X̄ and R", "xbar_s": "X̄ and S"}
 
 #: How the run-rule sets are named in the report.
-RULE_NAMES = {"western_electric": "Western Electric", "nelson": "Nelson"}
+RULE_NAMES = {"beyond_limits": "beyond-the-limits", "western_electric": "Western Electric", "nelson": "Nelson"}
 
 _FIG_DPI = 150
 _MARGIN = 15.0
@@ -821,6 +822,8 @@ _REFERENCES: dict[str, str] = {
     "western_electric": "Western Electric Co. (1956). Statistical Quality Control Handbook.",
     "nelson": "Nelson, L.S. (1984). The Shewhart control chart — tests for special causes. "
               "J. Quality Technology 16(4), 237–239.",
+    "champ": "Champ, C.W. & Woodall, W.H. (1987). Exact results for Shewhart control charts with "
+             "supplementary runs rules. Technometrics 29(4), 393–399 (in-control false-alarm rates).",
     "bissell": "Bissell, A.F. (1990). How reliable is your capability index? Applied Statistics 39(3), 331–340.",
     "percentile": "ISO 22514-2 (percentile method); Clements, J.A. (1989). Process capability calculations "
                   "for non-normal distributions. Quality Progress 22(9), 95–100.",
@@ -851,9 +854,13 @@ def _methods(v: _View) -> list[tuple[str, list[str]]]:
     out.append(("Normality: Anderson–Darling A² and A* with the Table 4.9 p-value; Shapiro–Wilk; "
                 "skewness and kurtosis tests; normal probability plots.", ["ad", "sw", "moments"]))
     rules = str((d.get("control") or {}).get("rules") or "western_electric")
+    chart_refs = ["charts", "nist"] + ([rules] if rules in _REFERENCES else [])
+    if (d.get("control") or {}).get("false_alarm"):
+        chart_refs.append("champ")
     out.append(("Control chart: limits on the transformed scale, back-transformed to measurement "
-                "units (hence asymmetric); constants d2, d3, c4 computed numerically.",
-                ["charts", "nist", rules if rules in _REFERENCES else "western_electric"]))
+                "units (hence asymmetric); constants d2, d3, c4 computed numerically; expected "
+                "false alarms of the run rules from the Markov chain of the zones.",
+                chart_refs))
     if (d.get("capability") or {}).get("verdict") not in (None, "not_assessed"):
         out.append(("Capability: specification limits mapped through the transform; chi-square "
                     "intervals for Cp and Pp, Bissell's approximation for Cpk and Ppk; expected ppm "
@@ -1055,6 +1062,9 @@ def _sec_chart(w: _Writer, v: _View) -> None:
             w.para(f"… and {len(viol) - len(shown)} more (see the JSON export).", size=8)
     else:
         w.para("No rule violations: the process is in statistical control on this chart.")
+    fa = FalseAlarmRate.from_dict(c.get("false_alarm") or {})
+    if fa is not None:
+        w.para(f"Expected false alarms: {fa.plain_words()}", size=8.5)
 
 
 def _ci(iv: Any, side: str) -> Any:

@@ -17,17 +17,20 @@ import numpy as np
 import pandas as pd
 
 from ._results import Result
-from ._validation import check_sample
+from ._validation import check_choice, check_sample
 from .errors import ConfigError, DataError, QcnormError
 from .transforms import (
     TRANSFORMS,
     SpreadLevel,
     Transform,
+    censored_normal_fit,
     make_transform,
     spread_level,
+    substitute_zero_readings,
 )
 
-__all__ = ["CandidateFit", "TransformChoice", "choose_transform", "SIMPLICITY_ORDER", "AIC_MARGIN"]
+__all__ = ["CandidateFit", "TransformChoice", "ZeroHandling", "choose_transform", "gauge_zero_step",
+           "SIMPLICITY_ORDER", "AIC_MARGIN", "ZERO_CHOICES"]
 
 #: From simplest to most flexible; ties within AIC_MARGIN go to the simpler one.
 SIMPLICITY_ORDER = ("none", "log", "boxcox", "yeojohnson", "johnson")
@@ -42,6 +45,18 @@ MIN_N_SELECTION = 8
 # on the sample quantiles at Φ(±3z), i.e. on the tails, and a 4-parameter bounded fit to a
 # few dozen values invents bounds the process does not have (common practice: ≥ 100).
 JOHNSON_AUTO_MIN_N = 100
+
+#: How readings of exactly 0 that look like small values rounded by the gauge are treated:
+#: "censor" (the default) fits them as values between 0 and half the gauge step for EVERY
+#: candidate, so log and Box–Cox can compete; "exclude" is the earlier behaviour (any 0 makes
+#: log and Box–Cox not applicable).
+ZERO_CHOICES = ("censor", "exclude")
+#: A 0 reading counts as "rounded from a small value" only when the smallest positive reading
+#: is at most this many gauge steps above 0 (qcnorm's own rule: zeros far below the rest of
+#: the data are more likely true zeros or a code than the lowest step of the gauge).
+ZERO_MAX_GAP_STEPS = 2.0
+#: Relative tolerance of "every reading is a whole number of gauge steps" (floating point).
+_GRID_TOL = 1e-6
 
 _WORDS = {
     "none": "no transform",
@@ -83,6 +98,23 @@ class CandidateFit(Result):
 
 
 @dataclass(frozen=True, slots=True)
+class ZeroHandling(Result):
+    """How readings of 0 entered the candidate fits.
+
+    ``method``: "censored" (each 0 reading entered every candidate's likelihood as a value
+    between 0 and ``limit`` = half the gauge ``step``), "excluded" (they were left as 0, so
+    log and Box–Cox could not be fitted), or "not_needed" (no 0 reading, or negatives, or no
+    gauge step pattern: true zeros). ``message`` says it in plain words.
+    """
+
+    method: str
+    n_zeros: int
+    step: float | None
+    limit: float | None
+    message: str
+
+
+@dataclass(frozen=True, slots=True)
 class TransformChoice(Result):
     """The chosen transform, the ranking of all candidates and the reason.
 
@@ -107,6 +139,7 @@ class TransformChoice(Result):
         "lowest AIC of the original data (Jacobian included), preferring a simpler transform "
         "within 2 AIC units whose Anderson–Darling p-value is not worse than 0.05 where the best's is"
     )
+    zero_handling: ZeroHandling | None = None
 
     _skip_in_dict: ClassVar[tuple[str, ...]] = ("transform",)
 
@@ -117,7 +150,7 @@ class TransformChoice(Result):
             rows.append({
                 "transform": c.name,
                 "chosen": c.ok and c.name == self.name,
-                "parameters": ", ".join(f"{k} = {v:.4g}" for k, v in c.params.items()),
+                "parameters": _param_words(c.params),
                 "n_params": c.n_params,
                 "loglik": c.loglik,
                 "aic": c.aic,
@@ -125,10 +158,24 @@ class TransformChoice(Result):
                 "ad_statistic": c.ad_statistic,
                 "ad_p_value": c.ad_p_value,
                 "skewness_after": c.skewness_after,
-                "note": c.error or "",
+                "note": c.error or (f"0 readings fitted as censored in (0, {c.params['zero_limit']:.4g}]"
+                                    if "zero_limit" in c.params else ""),
             })
         df = pd.DataFrame(rows)
         return df.sort_values("aic", na_position="last", kind="stable").reset_index(drop=True)
+
+
+#: Keys of ``params`` that report how a fit was made rather than define the transform.
+_REPORT_KEYS = ("lambda_mle", "lambda_ci_low", "lambda_ci_high", "zero_limit", "zero_value")
+
+
+def _param_words(p: dict) -> str:
+    """'lambda = 0.5, shift = 0 (ML λ 0.276, 95 % 0.12 to 0.43)' for the ranking table."""
+    txt = ", ".join(f"{k} = {v:.4g}" for k, v in p.items() if k not in _REPORT_KEYS)
+    if "lambda_mle" in p:
+        txt += (f" (ML λ {p['lambda_mle']:.3g}, 95 % {p['lambda_ci_low']:.3g} to "
+                f"{p['lambda_ci_high']:.3g})")
+    return txt
 
 
 def _resolve(candidates: str | Sequence[str]) -> tuple[tuple[str, ...], bool]:
@@ -150,24 +197,30 @@ def _resolve(candidates: str | Sequence[str]) -> tuple[tuple[str, ...], bool]:
     return tuple(sorted(dict.fromkeys(names), key=SIMPLICITY_ORDER.index)), single
 
 
-def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = None) -> CandidateFit:
+def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = None,
+              zero_limit: float | None = None) -> CandidateFit:
     """Scores of a fitted transform on the sorted sample ``xs``; ``ad_out[family]`` gets
-    ``(t, ADResult of T(xs))`` when a dict is given (reused by analyze())."""
+    ``(t, ADResult of T(xs))`` when a dict is given (reused by analyze()). With
+    ``zero_limit`` the readings of 0 are scored as censored (see choose_transform Notes)."""
     from .normality import _vdot, anderson_darling
 
     n = xs.size
+    xt = substitute_zero_readings(t, xs)  # log/Box–Cox fitted with zero readings: their stand-in
     # The fit has already checked that every value lies in the transform's domain, so
     # the public transform()/log_jacobian() checks are skipped here (same numbers).
     with np.errstate(all="ignore"):
-        ty = t._forward(xs)  # increasing, so still sorted
-        log_jac_sum = float(t._log_jac(xs).sum())
+        ty = t._forward(xt)  # increasing, so still sorted
+        log_jac_sum = float(t._log_jac(xt).sum()) if zero_limit is None else math.nan
     mu = float(ty.mean())
     dev = ty - mu
     m2 = _vdot(dev, dev) / n
     if not (m2 > 0 and math.isfinite(m2)):
         raise DataError("the transformed values have no spread")
-    # ln L of the original data = Σ ln φ(T(x); μ̂, σ̂) + Σ ln T'(x), μ̂, σ̂ the MLE of T(x).
-    loglik = -0.5 * n * (math.log(2.0 * math.pi * m2) + 1.0) + log_jac_sum
+    if zero_limit is None:
+        # ln L of the original data = Σ ln φ(T(x); μ̂, σ̂) + Σ ln T'(x), μ̂, σ̂ the MLE of T(x).
+        loglik = -0.5 * n * (math.log(2.0 * math.pi * m2) + 1.0) + log_jac_sum
+    else:
+        loglik = _censored_loglik(t, xs, zero_limit)
     k = t.n_model_params
     skew = _vdot(dev * dev, dev) / n / m2**1.5
     ad = anderson_darling(ty, presorted=True)
@@ -178,6 +231,81 @@ def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = N
         delta_aic=math.nan, ad_statistic=float(ad.statistic), ad_p_value=float(ad.p_value),
         skewness_after=skew, error=None, n_params=k, description=t.describe(), transform=t,
     )
+
+
+def _censored_loglik(t: Transform, xs: np.ndarray, c: float) -> float:
+    """ln L of the ORIGINAL data when each 0 reading is only known to lie in (0, c]:
+
+        Σ_exact [ln φ(T(x); μ̂, σ̂) + ln T'(x)] + k·ln[Φ((T(c) − μ̂)/σ̂) − Φ((T(0) − μ̂)/σ̂)],
+
+    μ̂, σ̂ maximising it (``censored_normal_fit``); T(0) is the image's lower end when 0 is the
+    domain's open end (log, Box–Cox). Every candidate is scored on this same likelihood, so
+    the AIC comparison stays fair.
+    """
+    fitted = getattr(t, "censored_loglik_", None)
+    if getattr(t, "zero_value_", None) is not None and fitted is not None:
+        return float(fitted)  # the log/Box–Cox fit maximised exactly this (at the λ used)
+    zeros = xs == 0.0
+    k = int(zeros.sum())
+    ex = xs[~zeros]
+    with np.errstate(all="ignore"):
+        y = t._forward(ex)
+        jac = float(t._log_jac(ex).sum())
+        b = float(t._forward(np.array([c]))[0])
+        a = (float(t._forward(np.array([0.0]))[0]) if bool(t.domain.contains(np.array([0.0]))[0])
+             else float(t.image[0]))
+    from .normality import _vdot
+
+    f = censored_normal_fit(ex.size, float(y.sum()), _vdot(y, y), k, a, b)
+    return f.loglik + jac
+
+
+def gauge_zero_step(x: Any) -> float | None:
+    """The gauge step when readings of 0 look like small values rounded to 0, else None.
+
+    Yes when: no value is negative, some readings are exactly 0, every reading is a whole
+    number of steps (the step being the smallest gap between distinct values, as in
+    :func:`qcnorm.normality.resolution_check`), and the smallest positive reading is at most
+    ``ZERO_MAX_GAP_STEPS`` steps. Continuous data with true zeros fail the grid test and keep
+    their zeros as zeros.
+    """
+    from .normality import _resolution_from_sorted
+
+    xs = np.sort(np.asarray(x, dtype=np.float64))
+    if xs.size < 3 or xs[0] != 0.0 or xs[-1] <= 0.0:
+        return None
+    step = float(f"{_resolution_from_sorted(xs).step:.6g}")  # 0.09999999999999964 -> 0.1
+    if not step > 0:
+        return None
+    pos = xs[xs > 0.0]
+    if pos.size < 3 or pos[0] > ZERO_MAX_GAP_STEPS * step * (1 + _GRID_TOL):
+        return None
+    r = pos / step
+    if np.any(np.abs(r - np.rint(r)) > _GRID_TOL * np.maximum(1.0, r)):
+        return None
+    return step
+
+
+def _zero_handling(xs: np.ndarray, zeros: str) -> ZeroHandling:
+    k = int((xs == 0.0).sum())
+    if k == 0 or xs[0] < 0:
+        return ZeroHandling("not_needed", k, None, None,
+                            "" if k == 0 else "Readings of 0 among negative values are ordinary values.")
+    step = gauge_zero_step(xs)
+    if step is None:
+        return ZeroHandling("not_needed", k, None, None,
+                            f"{k} reading(s) of 0 do not sit on a gauge step pattern, so they are taken as true "
+                            "zeros: log and Box–Cox cannot use them.")
+    if zeros == "exclude":
+        return ZeroHandling("excluded", k, step, None,
+                            f"{k} reading(s) of 0 look like values below the gauge step {step:g} rounded to 0, "
+                            "but were kept as zeros as asked, so log and Box–Cox could not be fitted "
+                            "(treat them as censored to let those compete).")
+    c = 0.5 * step
+    return ZeroHandling("censored", k, step, c,
+                        f"{k} reading(s) of 0 look like values below the gauge step {step:g} rounded to 0: "
+                        f"for every candidate they entered the likelihood as values between 0 and {c:g} "
+                        "(half a step; censored likelihood), so log and Box–Cox could be compared fairly.")
 
 
 def _failed(family: str, reason: str) -> CandidateFit:
@@ -194,6 +322,7 @@ def choose_transform(
     subgroups: Any = None,
     round_lambda: bool = True,
     *,
+    zeros: str = "censor",
     _sorted: np.ndarray | None = None,
     _ad_out: dict | None = None,
 ) -> TransformChoice:
@@ -213,6 +342,12 @@ def choose_transform(
         cross-check of λ (:func:`qcnorm.transforms.spread_level`).
     round_lambda : bool
         Passed to Box–Cox: round λ to a convenient value inside its 95 % interval.
+    zeros : {"censor", "exclude"}
+        Readings of exactly 0 that look like small values rounded by the gauge
+        (:func:`gauge_zero_step`): "censor" (default) fits them, for every candidate, as
+        values between 0 and half the gauge step; "exclude" leaves them as zeros, so log
+        and Box–Cox are not applicable. Negative values always rule out log and Box–Cox,
+        and zeros without a gauge step pattern are true zeros either way.
 
     Returns
     -------
@@ -243,6 +378,18 @@ def choose_transform(
     A candidate that cannot be fitted stays in the table with its reason and is never
     chosen.
 
+    Readings of 0 under ``zeros="censor"``: with k such readings and c = half the gauge
+    step, every candidate's likelihood becomes
+
+        Σ_exact [ln φ(T(x); μ̂, σ̂) + ln T'(x)] + k·ln[Φ((T(c) − μ̂)/σ̂) − Φ((T(0) − μ̂)/σ̂)]
+
+    (interval censoring, Tobin 1958; Helsel 2012), μ̂, σ̂ maximising it; the 0 readings
+    carry a probability, not a density, so no Jacobian. Log and Box–Cox fit λ, μ, σ by this
+    likelihood (T(0) = −∞, or −1/λ for λ > 0); the others keep their usual fit and are scored
+    on it with μ, σ re-maximised. All candidates thus describe the same observations the same
+    way. For the Anderson–Darling check and everything downstream, log/Box–Cox place each 0
+    reading at ``zero_value_`` (the conditional mean on the transformed scale).
+
     References
     ----------
     Akaike, H. (1974). A new look at the statistical model identification. IEEE
@@ -250,13 +397,18 @@ def choose_transform(
     Burnham, K.P. & Anderson, D.R. (2002). Model Selection and Multimodel Inference,
     2nd ed. Springer (AIC differences below 2).
     Box, G.E.P. & Cox, D.R. (1964). JRSS B 26(2), 211–252 (likelihood of the original data).
+    Tobin, J. (1958). Econometrica 26(1), 24–36 (censored normal likelihood).
+    Helsel, D.R. (2012). Statistics for Censored Environmental Data, 2nd ed. Wiley.
     """
     arr = check_sample(x, "x", "choose_transform", min_n=MIN_N_SELECTION)
+    check_choice(zeros, ZERO_CHOICES, "zeros", "choose_transform")
     names, single = _resolve(candidates)
     # Sorted once (every transform is increasing). ``_sorted`` is private plumbing for
     # analyze(), which sorts the data once for all its steps: np.sort(x), trusted as is.
     # ``_ad_out`` (private, for analyze()) collects {family: (fitted transform, ADResult)}.
     xs = np.sort(arr) if _sorted is None else _sorted
+    zh = _zero_handling(xs, zeros)
+    zero_limit = zh.limit if zh.method == "censored" else None
     fits: list[CandidateFit] = []
     auto = isinstance(candidates, str) and candidates == "auto"
     for fam in names:
@@ -264,15 +416,20 @@ def choose_transform(
             fits.append(_failed(fam, f"not tried automatically below {JOHNSON_AUTO_MIN_N} values (its "
                                      "percentile fit rests on the tails); choose it explicitly to fit it"))
             continue
-        opts = {"round_lambda": round_lambda} if fam == "boxcox" else {}
+        opts: dict[str, Any] = {"round_lambda": round_lambda} if fam == "boxcox" else {}
+        if zero_limit is not None and fam in ("log", "boxcox"):
+            opts["zero_limit"] = zero_limit
         t = make_transform(fam, **opts)
         try:
             t.fit(xs)  # sorted values: same fit, and Johnson skips its own sort
-            fits.append(_evaluate(fam, t, xs, _ad_out))
+            fits.append(_evaluate(fam, t, xs, _ad_out, zero_limit=zero_limit))
         except QcnormError as exc:
             if single:
                 raise
-            fits.append(_failed(fam, _short_reason(fam, exc)))
+            reason = _short_reason(fam, exc)
+            if zh.method == "excluded" and fam in ("log", "boxcox"):
+                reason += " (the 0 readings look rounded from small values: zeros='censor' would fit them)"
+            fits.append(_failed(fam, reason))
     ok = [c for c in fits if c.ok]
     if not ok:
         raise DataError(
@@ -300,12 +457,14 @@ def choose_transform(
         except QcnormError as exc:
             notes.append(f"Spread–level check not possible: {exc}")
     reason = why
+    if zh.method in ("censored", "excluded"):
+        reason += " " + zh.message
     if sl is not None:
         reason += " " + sl.message
     return TransformChoice(
         transform=chosen.transform, name=chosen.name, params=chosen.params, reason=reason,
         candidates=tuple(fits), spread_level=sl, n=int(arr.size), requested=names,
-        round_lambda=bool(round_lambda), notes=tuple(notes),
+        round_lambda=bool(round_lambda), notes=tuple(notes), zero_handling=zh,
     )
 
 

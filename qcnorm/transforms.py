@@ -63,6 +63,8 @@ __all__ = [
     "make_transform",
     "transform_from_params",
     "spread_level",
+    "substitute_zero_readings",
+    "censored_normal_fit",
     "sample_quantile",
     "slifker_shapiro",
 ]
@@ -364,7 +366,7 @@ class Log(Transform):
         "or set a threshold below the smallest value."
     )
 
-    def __init__(self, threshold: None | str | float = None) -> None:
+    def __init__(self, threshold: None | str | float = None, zero_limit: float | None = None) -> None:
         super().__init__()
         if not (threshold is None or threshold == "fit" or _is_number(threshold)):
             raise ConfigError(
@@ -373,9 +375,16 @@ class Log(Transform):
             )
         self.threshold = threshold
         self.min_n = MIN_N["log_threshold"] if threshold == "fit" else MIN_N["log"]
+        self.zero_limit = _check_zero_limit(zero_limit, "Log")
 
     def _fit(self, x: np.ndarray) -> None:
         self.threshold_fitted_ = self.threshold == "fit"
+        self.zero_value_ = None
+        if self.zero_limit is not None and self.threshold is None and float(x.min()) == 0.0:
+            self.shift_ = 0.0
+            pos, _ = _fit_with_zero_readings(self, x, 0.0)
+            _set_zero_value(self, pos, 0.0)
+            return
         if self.threshold is None:
             self.shift_ = 0.0
         elif self.threshold == "fit":
@@ -397,7 +406,7 @@ class Log(Transform):
         return Domain(0.0 - self.shift_, math.inf)
 
     def _params(self):
-        return {"shift": self.shift_}
+        return {"shift": self.shift_, **_zero_params(self)}
 
     @property
     def n_model_params(self) -> int:
@@ -407,7 +416,7 @@ class Log(Transform):
     def describe(self) -> str:
         self._check_fitted()
         if abs(self.shift_) == 0.0:
-            return "Natural log, y = ln(x)."
+            return "Natural log, y = ln(x)." + (_zero_words(self) + "." if _zero_words(self) else "")
         how = "estimated as a 3-parameter lognormal" if self.threshold_fitted_ else "as set"
         return f"Natural log with threshold {_fmt(-self.shift_)} ({how}), y = ln(x − {_fmt(-self.shift_)})."
 
@@ -654,6 +663,19 @@ def _yj_neg(lm: np.ndarray, lam: float, out: np.ndarray | None = None) -> np.nda
     return out
 
 
+def _lambda_estimate_params(t: Transform) -> dict[str, float]:
+    """``lambda_mle``, ``lambda_ci_low``, ``lambda_ci_high`` when the fit knows them.
+
+    They report the estimate beside the λ used (which may be rounded); a transform rebuilt
+    from parameters stored without them (older baselines) simply omits them.
+    """
+    ci = getattr(t, "lambda_ci_", None)
+    mle = getattr(t, "lambda_mle_", getattr(t, "lambda_", math.nan))
+    if ci is None or not (math.isfinite(mle) and all(map(math.isfinite, ci))):
+        return {}
+    return {"lambda_mle": mle, "lambda_ci_low": ci[0], "lambda_ci_high": ci[1]}
+
+
 def _round_lambda(lam: float, ci: tuple[float, float]) -> float | None:
     inside = [c for c in CONVENIENT_LAMBDAS if ci[0] <= c <= ci[1]]
     if not inside:
@@ -663,6 +685,243 @@ def _round_lambda(lam: float, ci: tuple[float, float]) -> float | None:
 
 def _lambda_words(lam: float, ci: tuple[float, float]) -> str:
     return f"λ = {lam:.3g} (95 % interval {ci[0]:.3g} to {ci[1]:.3g})"
+
+
+# --------------------------------------------------------------------------- readings of 0 below the gauge step
+
+
+@dataclass(frozen=True, slots=True)
+class CensoredNormalFit:
+    """μ̂, σ̂ and the maximised log-likelihood of a normal sample with k interval-censored values.
+
+    ``loglik`` is the normal part only, Σ ln φ(y; μ̂, σ̂) over exact values plus
+    k·ln[Φ(z_b) − Φ(z_a)]; add the Jacobian of the exact values for the original data.
+    """
+
+    mu: float
+    sigma: float
+    loglik: float
+
+    def conditional_mean(self, a: float, b: float) -> float:
+        """E[Y | a < Y ≤ b] under N(μ̂, σ̂²) (the mean of the truncated normal)."""
+        za, zb = (a - self.mu) / self.sigma, (b - self.mu) / self.sigma
+        lp = _log_interval_prob(za, zb)
+        ratio = (math.exp(_log_phi(za) - lp) if math.isfinite(za) else 0.0) - math.exp(_log_phi(zb) - lp)
+        return min(max(self.mu + self.sigma * ratio, a), b)
+
+
+def _log_phi(z: float) -> float:
+    return -0.5 * z * z - 0.5 * math.log(2.0 * math.pi)
+
+
+def _log_interval_prob(za: float, zb: float) -> float:
+    """ln[Φ(zb) − Φ(za)], accurate in the lower tail (log_ndtr) and for za = −∞."""
+    lb = float(special.log_ndtr(zb))
+    if not math.isfinite(za):
+        return lb
+    la = float(special.log_ndtr(za))
+    if la >= lb:
+        return -math.inf
+    return lb + math.log(-math.expm1(la - lb))
+
+
+def censored_normal_fit(n_exact: int, s1: float, s2: float, k: float, a: float, b: float,
+                        start: tuple[float, float] | None = None) -> CensoredNormalFit:
+    """Maximum likelihood of N(μ, σ²) from exact values and k values known only to lie in (a, b].
+
+    Parameters
+    ----------
+    n_exact, s1, s2 : the count, sum and sum of squares of the exact values (sufficient).
+    k : number of censored values (may be fractional on a subsample).
+    a, b : the censoring interval on the same scale (a may be −inf: left-censored at b).
+
+    Notes
+    -----
+    ln L(μ, σ) = −(n/2)·ln 2π − n·ln σ − Σ(y − μ)²/(2σ²) + k·ln[Φ((b − μ)/σ) − Φ((a − μ)/σ)]
+    (the Tobit / interval-censored normal likelihood; Tobin 1958; Helsel 2012, ch. 6),
+    maximised over (μ, ln σ) by Newton's method (analytic gradient, Hessian by differences
+    of it, backtracking line search), started from the exact values' mean and SD.
+
+    References
+    ----------
+    Tobin, J. (1958). Estimation of relationships for limited dependent variables.
+    Econometrica 26(1), 24–36.
+    Helsel, D.R. (2012). Statistics for Censored Environmental Data Using Minitab and R,
+    2nd ed. Wiley (maximum likelihood for values below a reporting limit).
+    """
+    n = n_exact
+    if start is None:
+        mu0 = s1 / n
+        var0 = max(s2 / n - mu0 * mu0, 1e-300)
+        start = (mu0, 0.5 * math.log(var0))
+
+    def negll(mu: float, ls: float) -> tuple[float, float, float]:
+        sig = math.exp(ls)
+        q = s2 - 2.0 * mu * s1 + n * mu * mu
+        za, zb = (a - mu) / sig, (b - mu) / sig
+        lp = _log_interval_prob(za, zb)
+        if not math.isfinite(lp):
+            return math.inf, 0.0, 0.0
+        ll = -n * ls - 0.5 * q / (sig * sig) + k * lp
+        rb = math.exp(_log_phi(zb) - lp)
+        ra = math.exp(_log_phi(za) - lp) if math.isfinite(za) else 0.0
+        d_mu = (s1 - n * mu) / (sig * sig) + k * (ra - rb) / sig
+        d_ls = -n + q / (sig * sig) + k * ((ra * za if math.isfinite(za) else 0.0) - rb * zb)
+        return -ll, -d_mu, -d_ls
+
+    # Newton's method on (μ, ln σ) with the Hessian from differences of the analytic gradient
+    # and a backtracking line search: each step is O(1) given the sufficient statistics.
+    mu, ls = float(start[0]), float(start[1])
+    f, gm, gs = negll(mu, ls)
+    if not math.isfinite(f):  # start outside the reach of the censored values: from their limit
+        mu, ls = b, ls
+        f, gm, gs = negll(mu, ls)
+    scale = math.exp(ls)
+    for _ in range(100):
+        hm, hs = 1e-6 * scale, 1e-6
+        _, g1m, g1s = negll(mu + hm, ls)
+        _, g2m, g2s = negll(mu, ls + hs)
+        h11, h22 = (g1m - gm) / hm, (g2s - gs) / hs
+        h12 = 0.5 * ((g1s - gs) / hm + (g2m - gm) / hs)
+        det = h11 * h22 - h12 * h12
+        if h11 > 0 and det > 0:
+            dm, dl = -(h22 * gm - h12 * gs) / det, -(h11 * gs - h12 * gm) / det
+        else:  # not convex here: a scaled gradient step
+            dm, dl = -gm * scale * scale / max(n, 1), -gs / max(n, 1)
+        slope = gm * dm + gs * dl
+        t = 1.0
+        while t > 1e-12:
+            fn, gnm, gns = negll(mu + t * dm, ls + t * dl)
+            if fn <= f + 1e-4 * t * slope:
+                break
+            t *= 0.5
+        else:
+            break
+        mu, ls, f, gm, gs = mu + t * dm, ls + t * dl, fn, gnm, gns
+        scale = math.exp(ls)
+        if abs(t * dm) < 1e-12 * scale + 1e-300 and abs(t * dl) < 1e-12:
+            break
+    ll = -f - 0.5 * n * math.log(2.0 * math.pi)
+    return CensoredNormalFit(float(mu), float(math.exp(ls)), float(ll))
+
+
+class _CensoredBoxCoxProfile:
+    """l(λ) of Box–Cox with k readings of 0 known only to lie in (0, c]: exact values give
+    the normal density of y with the Jacobian (λ − 1)·Σ ln x, the k others
+    ln[Φ((T(c) − μ)/σ) − Φ((T(0+) − μ)/σ)], T(0+) = −1/λ for λ > 0 and −∞ otherwise;
+    μ and σ maximised for each λ (``censored_normal_fit``)."""
+
+    def __init__(self, L: np.ndarray, k: float, c: float) -> None:
+        self.L, self.k, self.lc = L, k, math.log(c)
+        self.sum_l = float(L.sum())
+        self.buf = np.empty_like(L)
+
+    def fit_at(self, lam: float) -> CensoredNormalFit:
+        if abs(lam) < LAMBDA_TOL:
+            y, b, a = self.L, self.lc, -math.inf
+        else:
+            with np.errstate(over="ignore", invalid="ignore"):
+                np.multiply(self.L, lam, out=self.buf)
+                np.expm1(self.buf, out=self.buf)
+                self.buf /= lam
+            y, b, a = self.buf, math.expm1(lam * self.lc) / lam, (-1.0 / lam if lam > 0 else -math.inf)
+        s1 = float(y.sum())
+        s2 = _vdot(y, y)
+        if not (math.isfinite(s1) and math.isfinite(s2)):
+            return CensoredNormalFit(math.nan, math.nan, -math.inf)
+        f = censored_normal_fit(y.size, s1, s2, self.k, a, b, start=None)
+        return f
+
+    def __call__(self, lam: float) -> float:
+        f = self.fit_at(lam)
+        return f.loglik + (lam - 1.0) * self.sum_l if math.isfinite(f.loglik) else -math.inf
+
+
+def _fit_with_zero_readings(t: Transform, x: np.ndarray, fix_lambda: float | None) -> tuple[np.ndarray, _LambdaFit | None]:
+    """Shared by Log and Box–Cox when ``zero_limit`` is set and some readings are exactly 0.
+
+    Fits the exact (positive) values and the k zero readings as values in (0, c],
+    c = zero_limit, by the censored likelihood; sets ``zero_limit_``, ``n_zero_``,
+    ``censored_loglik_`` (the whole log-likelihood of the ORIGINAL data, Jacobian of
+    the exact values included) and returns the positive values and the λ fit
+    (None for the log). ``zero_value_`` is set by ``_set_zero_value`` once λ is final.
+    """
+    zeros = x == 0.0
+    pos = x[~zeros]
+    t.n_zero_ = int(zeros.sum())
+    t.zero_limit_ = float(t.zero_limit)
+    if pos.size < 3:
+        raise DataError(f"Only {pos.size} reading(s) above 0: too few to fit the {t.label}.")
+    t._raise_outside(pos, "fit")
+    L = np.log(pos)
+    if fix_lambda is not None:
+        return pos, None
+    k, c, n = t.n_zero_, t.zero_limit_, pos.size
+    fit = _fit_lambda(lambda data: _CensoredBoxCoxProfile(data, k * data.size / n, c), L, t.label)
+    return pos, fit
+
+
+def _set_zero_value(t: Transform, pos: np.ndarray, lam: float) -> None:
+    """μ̂, σ̂ at the λ used, the censored log-likelihood there, and ``zero_value_``: the value in
+    (0, c) whose transform is E[T(X) | 0 < X ≤ c] under the fitted model (the conditional mean
+    on the transformed scale; Helsel 2012 ch. 6 "ML-based imputation"). It stands for each zero
+    reading wherever one value per reading is needed (chart, normality tests, capability)."""
+    prof = _CensoredBoxCoxProfile(np.log(pos), t.n_zero_, t.zero_limit_)
+    f = prof.fit_at(lam)
+    t.censored_loglik_ = prof(lam)
+    t.censored_mu_, t.censored_sigma_ = f.mu, f.sigma
+    c = t.zero_limit_
+    if abs(lam) < LAMBDA_TOL:
+        a, b = -math.inf, math.log(c)
+        y0 = f.conditional_mean(a, b)
+        t.zero_value_ = float(min(math.exp(y0), c))
+    else:
+        a = -1.0 / lam if lam > 0 else -math.inf
+        b = math.expm1(lam * math.log(c)) / lam
+        y0 = f.conditional_mean(a, b)
+        t.zero_value_ = float(min(math.exp(math.log1p(lam * y0) / lam), c))
+    if not t.zero_value_ > 0:  # the conditional mean sits at the image's end: half the limit
+        t.zero_value_ = 0.5 * c
+
+
+def _zero_words(t: Transform) -> str:
+    if getattr(t, "zero_value_", None) is None:
+        return ""
+    return (f" Each reading of 0 is taken as a value between 0 and {_fmt(t.zero_limit_)} (censored) "
+            f"and stands at {_fmt(t.zero_value_)} on the transformed scale")
+
+
+def _zero_params(t: Transform) -> dict[str, float]:
+    zv = getattr(t, "zero_value_", None)
+    return {} if zv is None else {"zero_limit": t.zero_limit_, "zero_value": zv}
+
+
+def substitute_zero_readings(t: Transform, x: Any) -> np.ndarray:
+    """``x`` with readings of exactly 0 replaced by the fitted transform's ``zero_value_``.
+
+    A log or Box–Cox transform fitted with ``zero_limit`` treats a 0 reading as a value in
+    (0, zero_limit]; this gives each such reading the one value that represents it on the
+    transformed scale. Any other transform returns ``x`` unchanged (as a float array).
+    """
+    arr = np.asarray(x, dtype=np.float64)
+    zv = getattr(t, "zero_value_", None)
+    if zv is None:
+        return arr
+    zeros = arr == 0.0
+    if not zeros.any():
+        return arr
+    out = arr.copy()
+    out[zeros] = zv
+    return out
+
+
+def _check_zero_limit(zero_limit: Any, cls: str) -> float | None:
+    if zero_limit is None:
+        return None
+    if not (_is_number(zero_limit) and zero_limit > 0):
+        raise ConfigError(f"The 'zero_limit' parameter of {cls} must be None or a positive number "
+                          f"(half the gauge step). Got {zero_limit!r} instead.")
+    return float(zero_limit)
 
 
 # --------------------------------------------------------------------------- Box–Cox
@@ -679,11 +938,19 @@ class BoxCox(Transform):
     round_lambda : bool
         Replace the MLE by the nearest of (−1, −0.5, 0, 0.5, 1, 2) lying inside the 95 %
         interval, when there is one (common practice).
+    zero_limit : None or float
+        When set (half the gauge step, c), readings of exactly 0 are taken as values known
+        only to lie in (0, c] — a small value rounded down to 0 — and λ, μ, σ are fitted by
+        the censored likelihood (each such reading contributes
+        ln[Φ((T(c) − μ)/σ) − Φ((T(0+) − μ)/σ)], no Jacobian; the exact values their
+        density with the Jacobian). ``zero_value_`` then stands for each 0 reading in
+        ``substitute_zero_readings``. Negative values are still refused.
 
     Attributes
     ----------
     lambda_, lambda_mle_, lambda_ci_, shift_, rounded_, loglik_ (profile at lambda_mle_),
-    notes_ (plain-words remarks).
+    notes_ (plain-words remarks); with zero readings and ``zero_limit``: n_zero_,
+    zero_limit_, zero_value_, censored_loglik_ (at lambda_), censored_mu_, censored_sigma_.
 
     Notes
     -----
@@ -707,16 +974,26 @@ class BoxCox(Transform):
               "zeros or negatives, or set a shift.")
     min_n = MIN_N["boxcox"]
 
-    def __init__(self, shift: float | str = 0.0, round_lambda: bool = False) -> None:
+    def __init__(self, shift: float | str = 0.0, round_lambda: bool = False,
+                 zero_limit: float | None = None) -> None:
         super().__init__()
         if not (shift == "auto" or _is_number(shift)):
             raise ConfigError(f"The 'shift' parameter of BoxCox must be 'auto' or a number. Got {shift!r} instead.")
         self.shift = shift
         self.round_lambda = bool(round_lambda)
+        self.zero_limit = _check_zero_limit(zero_limit, "BoxCox")
 
     def _fit(self, x: np.ndarray) -> None:
         notes: list[str] = []
         self.shift_fitted_ = False
+        self.zero_value_ = None
+        if (self.zero_limit is not None and float(x.min()) == 0.0
+                and (self.shift == "auto" or float(self.shift) == 0.0)):
+            self.shift_ = 0.0
+            pos, fit = _fit_with_zero_readings(self, x, None)
+            self._take_lambda(fit, notes)
+            _set_zero_value(self, pos, self.lambda_)
+            return
         if self.shift == "auto":
             xmin = float(x.min())
             if xmin <= 0:
@@ -733,7 +1010,9 @@ class BoxCox(Transform):
             self.shift_ = float(self.shift)
         self._raise_outside(x, "fit")
         L = np.log(x + self.shift_)
-        fit = _fit_lambda(_BoxCoxProfile, L, "Box–Cox transform")
+        self._take_lambda(_fit_lambda(_BoxCoxProfile, L, "Box–Cox transform"), notes)
+
+    def _take_lambda(self, fit: _LambdaFit, notes: list[str]) -> None:
         notes.extend(fit.notes)
         self.lambda_mle_ = fit.lam
         self.lambda_ci_ = fit.ci
@@ -772,7 +1051,7 @@ class BoxCox(Transform):
         return (-1.0 / lam, math.inf) if lam > 0 else (-math.inf, -1.0 / lam)
 
     def _params(self):
-        return {"lambda": self.lambda_, "shift": self.shift_}
+        return {"lambda": self.lambda_, "shift": self.shift_, **_lambda_estimate_params(self), **_zero_params(self)}
 
     @property
     def n_model_params(self) -> int:
@@ -781,14 +1060,21 @@ class BoxCox(Transform):
 
     def describe(self) -> str:
         self._check_fitted()
-        txt = f"Box–Cox power transform, λ = {self.lambda_:.3g}"
-        ci = getattr(self, "lambda_ci_", None)
-        if ci is not None and all(map(math.isfinite, ci)):
-            txt += f" (95 % interval {ci[0]:.3g} to {ci[1]:.3g}"
-            txt += f"; maximum-likelihood {self.lambda_mle_:.3g}, rounded)" if self.rounded_ else ")"
+        lam, ci = self.lambda_, getattr(self, "lambda_ci_", None)
+        if ci is None or not all(map(math.isfinite, ci)):
+            txt = f"Box–Cox power transform, λ = {lam:.3g}"
+        elif self.rounded_:
+            txt = (f"Box–Cox power transform, λ = {lam:g} used (rounded from the maximum-likelihood "
+                   f"estimate {self.lambda_mle_:.3g}; its 95 % interval {ci[0]:.3g} to {ci[1]:.3g} "
+                   f"contains {lam:g})")
+        else:
+            why = ("no convenient value (−1, −0.5, 0, 0.5, 1, 2) lies inside that interval"
+                   if self.round_lambda else "rounding to a convenient value was switched off")
+            txt = (f"Box–Cox power transform, λ = {lam:.3g} used as estimated (maximum likelihood; "
+                   f"95 % interval {ci[0]:.3g} to {ci[1]:.3g}; not rounded: {why})")
         if self.shift_ != 0:
             txt += f", applied to x + {_fmt(self.shift_)}"
-        return txt + "."
+        return txt + "." + (_zero_words(self) + "." if _zero_words(self) else "")
 
 
 # --------------------------------------------------------------------------- Yeo–Johnson
@@ -857,7 +1143,7 @@ class YeoJohnson(Transform):
         return (lo, hi)
 
     def _params(self):
-        return {"lambda": self.lambda_}
+        return {"lambda": self.lambda_, **_lambda_estimate_params(self)}
 
     @property
     def n_model_params(self) -> int:
@@ -1241,13 +1527,17 @@ def transform_from_params(name: str, params: Mapping[str, Any]) -> Transform:
     elif base == "log":
         t = Log(threshold=-vals["shift"] if vals["shift"] != 0 else None)
         t.shift_, t.threshold_fitted_ = vals["shift"], False
+        _restore_zero_value(t, params)
     elif base == "boxcox":
         t = BoxCox(shift=vals["shift"])
         t.shift_, t.lambda_, t.lambda_mle_ = vals["shift"], vals["lambda"], vals["lambda"]
         t.lambda_ci_, t.rounded_, t.shift_fitted_ = None, False, False
+        _restore_estimate(t, params)
+        _restore_zero_value(t, params)
     elif base == "yeojohnson":
         t = YeoJohnson()
         t.lambda_, t.lambda_ci_ = vals["lambda"], None
+        _restore_estimate(t, params)
     else:
         fam = name.split("_", 1)[1]
         if vals["eta"] <= 0 or vals["lambda"] <= 0:
@@ -1256,6 +1546,33 @@ def transform_from_params(name: str, params: Mapping[str, Any]) -> Transform:
         t._set(fam, vals["gamma"], vals["eta"], vals["epsilon"], vals["lambda"])
     t._fitted = True
     return t
+
+
+def _restore_zero_value(t: Transform, params: Mapping[str, Any]) -> None:
+    """Put back ``zero_limit``/``zero_value`` (optional keys) so a frozen baseline treats 0
+    readings of new data as it treated those of the baseline."""
+    t.zero_value_ = None
+    try:
+        lim, zv = float(params["zero_limit"]), float(params["zero_value"])
+    except (KeyError, TypeError, ValueError):
+        return
+    if math.isfinite(lim) and math.isfinite(zv) and 0.0 < zv <= lim:
+        t.zero_limit_, t.zero_value_, t.n_zero_ = lim, zv, 0
+
+
+def _restore_estimate(t: Transform, params: Mapping[str, Any]) -> None:
+    """Put back the stored λ estimate and interval (optional keys; ignored when absent or bad)."""
+    try:
+        mle, lo, hi = (float(params[k]) for k in ("lambda_mle", "lambda_ci_low", "lambda_ci_high"))
+    except (KeyError, TypeError, ValueError):
+        return
+    if not all(map(math.isfinite, (mle, lo, hi))) or not lo <= mle <= hi:
+        return
+    t.lambda_mle_, t.lambda_ci_ = mle, (lo, hi)
+    if isinstance(t, BoxCox):
+        t.rounded_ = abs(t.lambda_ - mle) > LAMBDA_TOL
+        # unrounded although a convenient value lay inside: rounding was off for that fit
+        t.round_lambda = t.rounded_ or _round_lambda(mle, (lo, hi)) is None
 
 
 # --------------------------------------------------------------------------- spread–level

@@ -111,7 +111,7 @@ def test_phase_two_uses_frozen_limits_and_flags_a_shifted_process():
     base = analyze(rng.lognormal(0, 0.3, 200)).to_baseline()
     assert base.transform_name == "log"
     new = rng.lognormal(0.6, 0.3, 50)
-    shifted = analyze(new, baseline=base, usl=5.0)
+    shifted = analyze(new, baseline=base, usl=5.0, rules="western_electric")
     c, s = base.chart.center, base.chart.sigma_within
     assert shifted.chart.ucl_value == pytest.approx(c + 3 * s, rel=1e-12)
     assert shifted.chart.lcl_value == pytest.approx(c - 3 * s, rel=1e-12)
@@ -124,6 +124,8 @@ def test_phase_two_uses_frozen_limits_and_flags_a_shifted_process():
     assert shifted.capability.sigma_overall == pytest.approx(ln.std(ddof=1), rel=1e-12)
     assert not shifted.in_control
     assert any(v.rule in ("WE1", "WE2", "WE3", "WE4") for v in shifted.chart.violations)
+    # the default rules (a point beyond the frozen limits) see the shift too
+    assert not analyze(new, baseline=base, usl=5.0).in_control
 
 
 def test_fitted_bound_never_hides_a_spec_limit():
@@ -256,3 +258,70 @@ def test_negative_lower_limit_for_non_negative_data_is_explained():
     assert any("below zero" in w for w in a.warnings)
     b = analyze(np.round(x, 2) + 1.0, chart="individuals", transform="none")  # LCL well above 0
     assert not any("below zero" in w for w in b.warnings)
+
+
+def test_json_carries_the_rules_false_alarm_rate():
+    """control.false_alarm (added, nothing renamed): the expected in-control false alarms of
+    the rules over the chart's points; the default is rule 1 with a probability-limit MR chart
+    (rule 1 alone: 2Φ(−3) = 0.0027 per point, Montgomery; the MR limit adds about 0.05 %)."""
+    rng = np.random.default_rng(4)
+    d = json.loads(json.dumps(analyze(rng.normal(10, 1, 100)).to_dict()))
+    c = d["control"]
+    assert c["rules"] == "beyond_limits" and c["dispersion"]["limits"] == "probability"
+    fa = c["false_alarm"]
+    assert fa["n"] == 100 and fa["chart"] == "individuals"
+    assert 2 * stats.norm.sf(3) < fa["per_point"] < 2 * stats.norm.sf(3) + 0.001
+    assert 0.24 < fa["over_n"] <= 0.30
+    we = analyze(rng.normal(10, 1, 100), rules="western_electric").to_dict()["control"]
+    assert we["dispersion"]["limits"] == "three_sigma" and we["false_alarm"]["over_n"] > 0.75
+
+
+# --------------------------------------------------------------------------- readings of 0 from the gauge
+
+
+def _gauge_gamma(seed: int, n: int = 300) -> np.ndarray:
+    """gamma(shape 1.5, scale 1) recorded to 0.1, so the smallest values read 0.0 (issue 10, case 1)."""
+    return np.round(np.random.default_rng(seed).gamma(1.5, 1.0, n), 1)
+
+
+def test_gauge_zero_does_not_push_auto_onto_a_bounded_fit():
+    # Truth: P(X > 8) for gamma(1.5) is scipy.stats.gamma.sf(8, 1.5) ≈ 1,134 ppm. With the two 0.0
+    # readings censored, log/Box–Cox stay candidates and the chosen model's ppm is of the right
+    # order (a tail estimate from 300 values: within a factor of 3 of the truth), never ≈ 0.
+    x = _gauge_gamma(0)
+    assert (x == 0).sum() == 2
+    truth = stats.gamma.sf(8.0, 1.5) * 1e6
+    a = analyze(x, usl=8.0)
+    d = json.loads(json.dumps(a.to_dict(), allow_nan=False))
+    assert d["transform"]["name"] in ("log", "boxcox")
+    zh = d["transform"]["zero_handling"]
+    assert zh["method"] == "censored" and zh["n_zeros"] == 2
+    assert zh["step"] == pytest.approx(0.1) and zh["limit"] == pytest.approx(0.05)
+    assert "censored likelihood" in d["transform"]["reason"]
+    assert d["settings"]["zeros"] == "censor"
+    assert truth / 3 < d["capability"]["ppm_overall"] < truth * 3
+    assert d["capability"]["ppk"] < 1.33
+    # The readings are kept as read; only the transformed values use the fitted stand-in.
+    assert (a.values == 0).sum() == 2 and np.isfinite(a.transformed).all()
+    zv = d["transform"]["params"]["zero_value"]
+    assert 0 < zv < 0.05
+    assert a.transformed[x == 0] == pytest.approx(a.transform.transform([zv])[0])
+    # zeros="exclude": the earlier behaviour (log and Box–Cox not applicable, stated)
+    old = analyze(x, usl=8.0, zeros="exclude").to_dict()["transform"]
+    assert old["zero_handling"]["method"] == "excluded"
+    assert old["name"] not in ("log", "boxcox")
+    with pytest.raises(QcnormError, match="zeros"):
+        analyze(x, zeros="none")
+
+
+def test_baseline_from_censored_fit_charts_new_zero_readings():
+    # Phase II: a frozen Box–Cox/log fitted with censored zeros places 0 readings of new data at
+    # the same stand-in value (it travels in transform_params through JSON).
+    a1 = analyze(_gauge_gamma(0), usl=8.0, transform="boxcox")
+    base = Baseline.from_dict(json.loads(json.dumps(a1.to_baseline().to_dict())))
+    assert base.transform_params["zero_value"] == pytest.approx(a1.transform.params_["zero_value"])
+    new = _gauge_gamma(2, n=60)
+    new[0] = 0.0
+    a2 = analyze(new, usl=8.0, baseline=base)
+    assert a2.phase == "II" and np.isfinite(a2.transformed).all()
+    assert a2.transformed[0] == pytest.approx(a1.transform.transform([base.transform_params["zero_value"]])[0])

@@ -247,3 +247,25 @@ def test_a_refusal_on_an_analysis_page_offers_the_way_back_to_load():
     back[0].click().run()
     assert not at.exception
     assert at.session_state["qc_page"] == "load"
+
+
+def test_shape_page_states_how_the_box_cox_lambda_was_used():
+    # Demo Ra with Box–Cox requested: the reason on the Shape page is the core's, and it says
+    # whether λ was rounded (default) or used as estimated (checkbox off) — issue 10.
+    at = _app().run()
+    pick = at.selectbox(key="qc_pick").value
+    m = read_measurements(WIDE, column=pick, subgroup="Subgroup", order="Time")
+    _go(at, "shape")
+    at.selectbox(key="qc_transform").set_value("boxcox").run()
+    assert not at.exception
+    a = analyze(m, usl=1.6, units="µm", transform="boxcox")
+    p = a.transform.params_
+    assert a.transform.rounded_  # Ra: the 95 % interval of λ holds 0 (the log)
+    assert any(a.transform_reason == i.value for i in at.info)
+    assert any(f"rounded from the maximum-likelihood estimate {p['lambda_mle']:.3g}" in i.value for i in at.info)
+    at.checkbox(key="qc_round_lambda").uncheck().run()
+    assert not at.exception
+    exact = analyze(m, usl=1.6, units="µm", transform="boxcox", round_lambda=False)
+    assert exact.transform.params_["lambda"] == exact.transform.params_["lambda_mle"]
+    assert any(exact.transform_reason == i.value for i in at.info)
+    assert any("rounding to a convenient value was switched off" in i.value for i in at.info)

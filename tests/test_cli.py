@@ -188,3 +188,57 @@ def test_messages_use_cli_flags_not_python_keywords(capsys):
     rc = main(["analyze", str(MESSY / "long_format.csv")])
     err = capsys.readouterr().err
     assert rc == 2 and "--characteristic" in err and "characteristic=" not in err
+
+
+def _lambda_sample_csv(tmp_path) -> tuple[Path, np.ndarray]:
+    # 25 gamma(1.5) values whose Box–Cox ML λ is 0.275 with a 95 % interval of about −0.04 to 0.63
+    # (holds both 0 and 0.5; 0.5 is the nearer): the case of issue 10.
+    x = np.random.default_rng(3).gamma(1.5, 1.0, 300)
+    x = x[x >= 0.05][:25]
+    f = tmp_path / "lam.csv"
+    f.write_text("Value\n" + "\n".join(repr(float(v)) for v in x) + "\n")
+    return f, x
+
+
+def test_exact_lambda_switch_round_trips_through_json(tmp_path, capsys):
+    f, x = _lambda_sample_csv(tmp_path)
+    mle = stats.boxcox_normmax(x, method="mle")  # reference: scipy
+    _, _, ci = stats.boxcox(x, alpha=0.05)  # reference: scipy's likelihood-ratio interval
+    out = {}
+    for flag in ((), ("--exact-lambda",)):
+        assert main(["analyze", str(f), "--column", "Value", "--transform", "boxcox", "--json", *flag]) == 0
+        out[flag] = json.loads(capsys.readouterr().out)
+    rounded, exact = out[()], out[("--exact-lambda",)]
+    for d in (rounded, exact):
+        p = d["transform"]["params"]
+        assert p["lambda_mle"] == pytest.approx(mle, abs=2e-5)
+        assert (p["lambda_ci_low"], p["lambda_ci_high"]) == pytest.approx(ci, abs=1e-4)
+    assert rounded["settings"]["round_lambda"] is True and rounded["transform"]["params"]["lambda"] == 0.5
+    assert "λ = 0.5 used (rounded from the maximum-likelihood estimate 0.275" in rounded["transform"]["reason"]
+    assert exact["settings"]["round_lambda"] is False
+    assert exact["transform"]["params"]["lambda"] == exact["transform"]["params"]["lambda_mle"]
+    assert "not rounded: rounding to a convenient value was switched off" in exact["transform"]["reason"]
+    # The JSON parameters rebuild the same transform (a frozen baseline stores exactly these).
+    from qcnorm.transforms import transform_from_params
+
+    for d in (rounded, exact):
+        back = transform_from_params("boxcox", d["transform"]["params"])
+        assert back.params_ == pytest.approx(d["transform"]["params"], abs=1e-12)
+        assert back.describe() == d["transform"]["description"]
+
+
+def test_zeros_switch_reaches_the_json(tmp_path, capsys):
+    # gamma(1.5) recorded to 0.1 with two 0.0 readings (issue 10, case 1)
+    x = np.round(np.random.default_rng(0).gamma(1.5, 1.0, 300), 1)
+    f = tmp_path / "z.csv"
+    f.write_text("Value\n" + "\n".join(f"{v:.1f}" for v in x) + "\n")
+    got = {}
+    for how in ("censor", "exclude"):
+        assert main(["analyze", str(f), "--column", "Value", "--usl", "8", "--json", "--zeros", how]) == 0
+        got[how] = json.loads(capsys.readouterr().out)
+    assert got["censor"]["transform"]["zero_handling"]["method"] == "censored"
+    assert got["censor"]["settings"]["zeros"] == "censor"
+    assert got["exclude"]["transform"]["zero_handling"]["method"] == "excluded"
+    ex = {c["name"]: c for c in got["exclude"]["transform"]["candidates"]}
+    assert "not applicable" in ex["log"]["error"] and "zeros='censor'" in ex["log"]["error"]
+    assert main(["analyze", str(f), "--column", "Value", "--zeros", "drop"]) == 2

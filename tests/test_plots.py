@@ -101,7 +101,7 @@ def test_signal_labels_do_not_stack_during_one_episode():
     rng = np.random.default_rng(11)
     x = rng.normal(10.0, 1.0, 150)
     x[70:90] += 2.5  # one episode: a 2.5-sigma shift for 20 points
-    a = analyze(x, transform="none", chart="individuals")
+    a = analyze(x, transform="none", chart="individuals", rules="western_electric")
     triggers = {int(v.index) for v in a.chart.violations}
     assert len(triggers) >= 8, "the planted shift should trip rules on many points"
     fig = plots.control_figure(a)

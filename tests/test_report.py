@@ -216,7 +216,7 @@ def test_each_signal_is_listed_once(residue_analysis, residue_pdf):
     assert f"Rule violations ({len(distinct)})" in text
     for v in c["dispersion"]["violations"]:
         assert text.count(f"{v['index'] + 1} DISP {v['description']}") == 1
-    assert f"{len(distinct)} signals" in _flat(review_checklist(d)[0].detail)
+    assert f"{len(distinct)} signal{'s' if len(distinct) != 1 else ''} (" in _flat(review_checklist(d)[0].detail)
     assert "Observation Rule What it means" in text  # individuals chart: points are observations
     assert "Specification none given" in text  # no spec limits
 
@@ -460,6 +460,22 @@ def test_checklist_in_control_follows_the_chart(base_dict):
     assert it.passed is False and "WE1" in it.detail and "point 7" in it.detail
     d["control"]["phase"] = "II"
     assert "baseline" in _item(d, "in_control").name
+
+
+def test_checklist_and_pdf_state_the_expected_false_alarms(base_dict, residue_analysis, residue_pdf):
+    """Beside the stability verdict: the in-control false-alarm rate of the rules used
+    (qcnorm.control.false_alarm_rate; rule 1 alone is 2Φ(−3) = 0.27 % per point, Montgomery)."""
+    d = copy.deepcopy(base_dict)
+    fa = d["control"]["false_alarm"]
+    assert fa["rules"] == d["control"]["rules"] and fa["n"] == d["control"]["n_points"]
+    detail = _item(d, "in_control").detail
+    assert f"about {100 * fa['over_n']:.0f} % of such runs" in detail
+    del d["control"]["false_alarm"]  # an analysis stored before the field existed reads as before
+    assert "false signal" not in _item(d, "in_control").detail
+    rd = residue_analysis.to_dict()["control"]["false_alarm"]
+    text = _flat(_text(residue_pdf))
+    assert "Expected false alarms: With these rules, a stable process charted over" in text
+    assert f"about {100 * rd['over_n']:.0f} % of such runs" in text
 
 
 def test_checklist_transform_adequate_at_ad_p_005(base_dict):

@@ -267,6 +267,9 @@ def test_make_transform_unknown_name_lists_valid_ones():
 _POS = np.random.default_rng(21).gamma(2.0, 2.0, 400) + 0.5
 _MIXED = np.random.default_rng(22).normal(1.0, 3.0, 400)
 _LEFT = 20.0 - np.random.default_rng(23).gamma(2.0, 1.0, 400)
+#: gamma(1.5) recorded to 0.1: a few readings of 0 (fitted as censored with zero_limit = 0.05)
+_GAUGE = np.round(np.random.default_rng(0).gamma(1.5, 1.0, 300), 1)
+_GAUGE_POS = _GAUGE[_GAUGE > 0]
 
 
 def _all_transforms() -> list[tuple[str, Transform, np.ndarray]]:
@@ -277,8 +280,10 @@ def _all_transforms() -> list[tuple[str, Transform, np.ndarray]]:
     return [
         ("none", Identity().fit(_MIXED), _MIXED),
         ("log", Log().fit(_POS), _POS),
+        ("log_zero_censored", Log(zero_limit=0.05).fit(_GAUGE), _GAUGE_POS),
         ("log_threshold", Log(threshold="fit").fit(_POS), _POS),
         ("boxcox", BoxCox().fit(_POS), _POS),
+        ("boxcox_zero_censored", BoxCox(zero_limit=0.05).fit(_GAUGE), _GAUGE_POS),
         ("boxcox_negative_lambda", BoxCox().fit(np.exp(-_POS / 4) + 1.0 / _POS), np.exp(-_POS / 4) + 1.0 / _POS),
         ("boxcox_shift_auto", BoxCox(shift="auto").fit(_MIXED), _MIXED),
         ("yeojohnson", YeoJohnson().fit(_MIXED), _MIXED),
@@ -375,8 +380,8 @@ def test_unfitted_use_raises(name):
 def test_contract_parameter_keys():
     keys = {t.family: set(t.params_) for _, t, _ in ALL}
     assert keys == {
-        "none": set(), "log": {"shift"}, "boxcox": {"lambda", "shift"}, "yeojohnson": {"lambda"},
-        "johnson": {"gamma", "eta", "epsilon", "lambda"},
+        "none": set(), "log": {"shift"}, "boxcox": {"lambda", "shift", *LAMBDA_ESTIMATE_KEYS},
+        "yeojohnson": {"lambda", *LAMBDA_ESTIMATE_KEYS}, "johnson": {"gamma", "eta", "epsilon", "lambda"},
     }
     n_params = {name: t.n_model_params for name, t, _ in ALL}
     assert n_params["none"] == 2 and n_params["log"] == 2 and n_params["log_threshold"] == 3
@@ -385,3 +390,121 @@ def test_contract_parameter_keys():
     # Johnson (1949): S_L is z = γ + η·ln(x − ε), three free parameters (γ, η, ε), i.e. the
     # 3-parameter lognormal; it must count like Log(threshold="fit"), not like S_U/S_B.
     assert n_params["johnson_sl"] == n_params["log_threshold"] == 3
+
+
+# --------------------------------------------------------------------------- transparent λ
+LAMBDA_ESTIMATE_KEYS = ("lambda_mle", "lambda_ci_low", "lambda_ci_high")
+
+
+@pytest.mark.parametrize("n, seed", [(20, 0), (50, 3), (300, 1), (3000, 2)])
+def test_lambda_estimate_fields_match_scipy(n, seed):
+    # Reference: scipy.stats.boxcox_normmax(method="mle") for the estimate and the interval of
+    # scipy.stats.boxcox(x, alpha=0.05) (the same likelihood-ratio interval, Box & Cox 1964).
+    x = np.random.default_rng(seed).gamma(1.5, 1.0, n) + 0.05
+    for rounding in (True, False):
+        p = BoxCox(round_lambda=rounding).fit(x).params_
+        _, lam_ref, ci_ref = stats.boxcox(x, alpha=0.05)
+        assert p["lambda_mle"] == pytest.approx(stats.boxcox_normmax(x, method="mle"), abs=2e-5)
+        assert p["lambda_mle"] == pytest.approx(lam_ref, abs=2e-5)
+        assert (p["lambda_ci_low"], p["lambda_ci_high"]) == pytest.approx(ci_ref, abs=1e-4)
+        if not rounding:
+            assert p["lambda"] == p["lambda_mle"]
+    yj = YeoJohnson().fit(x - 1.0).params_  # negatives too
+    assert yj["lambda_mle"] == yj["lambda"] == pytest.approx(stats.yeojohnson_normmax(x - 1.0), abs=1e-5)
+    assert yj["lambda_ci_low"] < yj["lambda"] < yj["lambda_ci_high"]
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_rounding_only_inside_the_interval(seed):
+    # The rule (common practice): the nearest of −1, −½, 0, ½, 1, 2 that lies inside the 95 %
+    # interval, else the estimate itself. Small and mid-size gamma samples make both cases occur.
+    rng = np.random.default_rng(seed)
+    x = rng.gamma(1.5, 1.0, int(rng.choice([15, 40, 120, 400]))) + 0.05
+    t = BoxCox(round_lambda=True).fit(x)
+    p = t.params_
+    lo, hi = p["lambda_ci_low"], p["lambda_ci_high"]
+    inside = [c for c in (-1.0, -0.5, 0.0, 0.5, 1.0, 2.0) if lo <= c <= hi]
+    if inside:
+        assert t.rounded_ and p["lambda"] in inside
+        assert abs(p["lambda"] - p["lambda_mle"]) == min(abs(c - p["lambda_mle"]) for c in inside)
+        assert f"rounded from the maximum-likelihood estimate {p['lambda_mle']:.3g}" in t.describe()
+    else:
+        assert not t.rounded_ and p["lambda"] == p["lambda_mle"]
+        assert "no convenient value" in t.describe()
+
+
+def test_mle_near_0_28_is_rounded_to_half_only_when_the_interval_contains_it():
+    # The case of issue 10: an estimate of about 0.28. With n = 300 from gamma(1.5) the interval is
+    # about 0.16 to 0.40 and must NOT be rounded to 0.5; with only 30 values it is wide enough
+    # to hold 0 and 0.5, and 0.5 is the nearer — rounding is then correct and must be stated.
+    x = np.random.default_rng(3).gamma(1.5, 1.0, 300)
+    x = x[x >= 0.05]
+    t = BoxCox(round_lambda=True).fit(x)
+    assert 0.2 < t.lambda_mle_ < 0.35 and t.lambda_ci_[1] < 0.5
+    assert not t.rounded_ and t.lambda_ == t.lambda_mle_
+    # The first 25 of them: estimate 0.275, interval about −0.04 to 0.63 — holds 0 and 0.5, and
+    # 0.5 is nearer (0.225 vs 0.275): the issue's "0.276 reported as 0.5", correct but now stated.
+    ts = BoxCox(round_lambda=True).fit(x[:25])
+    assert ts.lambda_mle_ == pytest.approx(stats.boxcox_normmax(x[:25], method="mle"), abs=2e-5)
+    assert 0.27 < ts.lambda_mle_ < 0.28 and ts.lambda_ci_[0] < 0.0 and 0.5 < ts.lambda_ci_[1]
+    assert ts.lambda_ == 0.5 and ts.rounded_
+    assert "λ = 0.5 used (rounded from the maximum-likelihood estimate 0.275" in ts.describe()
+    assert BoxCox(round_lambda=False).fit(x[:25]).lambda_ == ts.lambda_mle_
+
+
+def test_lambda_estimate_survives_transform_from_params():
+    x = np.random.default_rng(4).lognormal(0.0, 0.5, 60)
+    for t in (BoxCox(round_lambda=True).fit(x), BoxCox().fit(x), YeoJohnson().fit(x)):
+        back = transform_from_params(t.name, t.params_)
+        assert back.params_ == t.params_
+        assert back.describe() == t.describe()
+    old = transform_from_params("boxcox", {"lambda": 0.5, "shift": 0.0})  # stored before these keys
+    assert set(old.params_) == {"lambda", "shift"}
+
+
+# --------------------------------------------------------------------------- readings of 0 below the gauge step
+from qcnorm.transforms import Log, censored_normal_fit, substitute_zero_readings  # noqa: E402
+
+
+def test_censored_normal_fit_matches_scipy_optimiser():
+    # Reference: the left-censored normal likelihood Σ norm.logpdf + k·norm.logcdf(c) maximised by
+    # scipy.optimize.minimize (Nelder–Mead) (Tobin 1958).
+    from scipy import optimize
+
+    y = np.random.default_rng(1).normal(1.0, 2.0, 200)
+    c = 0.0
+    ex, k = y[y > c], int((y <= c).sum())
+    f = censored_normal_fit(ex.size, ex.sum(), float(ex @ ex), k, -np.inf, c)
+
+    def nll(th):
+        return -(stats.norm.logpdf(ex, th[0], np.exp(th[1])).sum() + k * stats.norm.logcdf(c, th[0], np.exp(th[1])))
+
+    r = optimize.minimize(nll, [0.0, 0.0], method="Nelder-Mead",
+                          options={"xatol": 1e-10, "fatol": 1e-12, "maxiter": 5000})
+    assert f.mu == pytest.approx(r.x[0], abs=1e-6) and f.sigma == pytest.approx(np.exp(r.x[1]), rel=1e-6)
+    assert f.loglik == pytest.approx(-r.fun, abs=1e-8)
+    # mean of the truncated normal: scipy.stats.truncnorm
+    m = f.conditional_mean(-1.0, 0.5)
+    assert m == pytest.approx(stats.truncnorm.mean((-1.0 - f.mu) / f.sigma, (0.5 - f.mu) / f.sigma,
+                                                   loc=f.mu, scale=f.sigma), rel=1e-9)
+
+
+def test_zero_limit_fits_and_round_trips():
+    x = np.round(np.random.default_rng(0).gamma(1.5, 1.0, 300), 1)
+    for t in (BoxCox(zero_limit=0.05).fit(x), Log(zero_limit=0.05).fit(x)):
+        p = t.params_
+        assert p["zero_limit"] == 0.05 and 0 < p["zero_value"] < 0.05
+        sub = substitute_zero_readings(t, x)
+        assert (sub[x == 0] == p["zero_value"]).all() and (sub[x > 0] == x[x > 0]).all()
+        with pytest.raises(DomainError):  # the transform itself still refuses a bare 0
+            t.transform(x)
+        back = transform_from_params(t.name, p)
+        assert back.params_ == pytest.approx(p)
+        assert (substitute_zero_readings(back, x) == sub).all()
+    # without zero readings nothing changes: the ordinary fit, no zero keys
+    assert set(BoxCox(zero_limit=0.05).fit(x[x > 0]).params_) == {"lambda", "shift", *LAMBDA_ESTIMATE_KEYS}
+    with pytest.raises(DomainError):
+        BoxCox(zero_limit=0.05).fit(np.r_[x, -0.1])  # negatives are still refused
+    for bad in (0.0, -1.0, "half", math.nan):
+        with pytest.raises(ConfigError, match="zero_limit"):
+            BoxCox(zero_limit=bad)

@@ -240,6 +240,8 @@ def _reproduce_cached(url: str, analysis_id: int, _record: AnalysisRecord) -> Re
         rules=s.get("rules", "western_electric"), exclude=s.get("exclude") or (),
         baseline=s.get("baseline"), required_index=s.get("required_index", 1.33),
         round_lambda=bool(s.get("round_lambda", True)), confidence=s.get("confidence", 0.95),
+        # records saved before the 'zeros' setting existed kept every 0 reading as a zero
+        zeros=s.get("zeros", "exclude"),
         characteristic=d.get("characteristic"), units=d.get("units"),
     )
     new = a.to_dict()

@@ -20,7 +20,11 @@ CHART_LABELS = {
     "xbar_r": "Subgroup mean and range (X̄–R)",
     "xbar_s": "Subgroup mean and standard deviation (X̄–S)",
 }
-RULE_LABELS = {"western_electric": "Western Electric (4 zone rules)", "nelson": "Nelson (8 tests)"}
+RULE_LABELS = {
+    "beyond_limits": "Beyond the limits (rule 1; default)",
+    "western_electric": "Western Electric (4 zone rules)",
+    "nelson": "Nelson (8 tests)",
+}
 _fmt = common.fmt
 
 
@@ -133,6 +137,9 @@ def render() -> None:
         k = len(ch.violations) + len(ch.dispersion.violations)
         st.warning(f"{k} signal{'s' if k != 1 else ''} of special causes: the process is not in statistical "
                    "control. Find the causes; exclude a point below only when its cause is known.", icon=":material/warning:")
+    if ch.false_alarm is not None:
+        st.caption(f"Expected false alarms: {ch.false_alarm.plain_words()} "
+                   "A single signal on a long run can therefore be chance; a signal with a cause found is not.")
     _limits_row(a)
     m = compute.current_measurements()
     st.plotly_chart(plots.control_figure(a, hover=_point_hover(a, m)), width="stretch", key="chart_main")

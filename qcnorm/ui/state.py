@@ -27,7 +27,7 @@ qc_required_index    the capability index the verdict is judged against (default
 qc_transform         "auto" | "none" | "log" | "boxcox" | "yeojohnson" | "johnson"
 qc_round_lambda      round Box–Cox lambda to a convenient value inside its interval
 qc_chart             "auto" | "individuals" | "xbar_r" | "xbar_s"
-qc_rules             "western_electric" | "nelson"
+qc_rules             "beyond_limits" (default) | "western_electric" | "nelson"
 qc_exclusions        dict {chart point index (0-based): reason} of assignable causes
 qc_exclusions_for    the data identity the exclusions belong to (cleared when it changes)
 qc_last_error        short text of the last error shown on the Load page (for tests/debug)
@@ -101,7 +101,7 @@ DEFAULTS: dict[str, Any] = {
     "qc_transform": "auto",
     "qc_round_lambda": True,
     "qc_chart": "auto",
-    "qc_rules": "western_electric",
+    "qc_rules": "beyond_limits",
     "qc_exclusions": {},
     "qc_exclusions_for": None,
     "qc_last_error": "",
