@@ -27,7 +27,7 @@ import qcnorm.store._common as store_common
 from qcnorm.cli import main
 from qcnorm.errors import AuthError, ConfigError, PermissionDenied, StoreError
 from qcnorm.store import (
-    ROLES, SCHEMA_VERSION, SINGLE_USER_LABEL, HistoryStore, User, data_sha256, may,
+    ROLES, SCHEMA_VERSION, SINGLE_USER_LABEL, HistoryStore, User, data_sha256, local_user_label, may,
 )
 from store_legacy import create_legacy
 from test_store import ANALYSIS, VALUES, db_url, pg_admin  # noqa: F401  (fixtures)
@@ -76,6 +76,7 @@ def test_single_user_mode_is_explicit(db_url: str):
         assert rv.id == rid and rv.signed is False and rv.signer_full_name == SINGLE_USER_LABEL
         assert rv.reviewer == "Sam" and rv.meaning == "approved"
         assert "not an electronic signature" in SINGLE_USER_LABEL
+        assert local_user_label() == f"{login} — {SINGLE_USER_LABEL}"
         assert s.verify_chain().ok
 
 

@@ -68,7 +68,7 @@ trail · ``chain.py`` tamper evidence · ``characteristics.py``, ``baselines.py`
 from __future__ import annotations
 
 from . import chain
-from ._common import analysis_sha256, canonical_data_encoding, data_sha256, default_db_url
+from ._common import analysis_sha256, canonical_data_encoding, data_sha256, default_db_url, os_login
 from .analyses import AnalysesRoom
 from .records import (
     DECISIONS, MEANINGS, ROLE_DUTIES, ROLES, SINGLE_USER_LABEL, AnalysisRecord, AuditEvent, BaselineRecord,
@@ -93,6 +93,7 @@ __all__ = [
     "data_sha256",
     "analysis_sha256",
     "may",
+    "local_user_label",
     "HistoryStore",
     "CharacteristicRecord",
     "BaselineRecord",
@@ -104,6 +105,12 @@ __all__ = [
     "AuthError",
     "PermissionDenied",
 ]
+
+
+def local_user_label() -> str:
+    """Who writes in single-user mode, as the app shows it on every page:
+    ``"<login name> — local user (single-user mode, not an electronic signature)"``."""
+    return f"{os_login()} — {SINGLE_USER_LABEL}"
 
 
 class HistoryStore(AnalysesRoom):
@@ -124,6 +131,7 @@ class HistoryStore(AnalysesRoom):
 
     Notes
     -----
+    ``accounts_enabled`` and ``administrator_may_sign`` are properties (no call).
     Every write method is one transaction; there are no update or delete methods for
     records. A correction is a new record with ``supersedes`` set. Use as a context
     manager or call :meth:`close`.

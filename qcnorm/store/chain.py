@@ -61,9 +61,28 @@ _USER_SEALED = ("id", "username", "full_name", "role", "active", "password_hash"
 
 
 def canonical_content(row: Mapping[str, Any]) -> str:
-    """The row as canonical JSON: non-NULL columns except ``record_hash``, sorted keys."""
-    data = {k: v for k, v in row.items() if k != "record_hash" and v is not None}
+    """The row as canonical JSON: non-NULL columns except ``record_hash``, sorted keys
+    (a float negative zero is written as 0.0, as some databases return it)."""
+    data = {k: (v + 0.0 if type(v) is float else v) for k, v in row.items() if k != "record_hash" and v is not None}
     return json.dumps(data, ensure_ascii=False, sort_keys=True, separators=(",", ":"), default=str)
+
+
+def _as_stored(table: sa.Table, values: Mapping[str, Any]) -> dict[str, Any]:
+    """The Python values the database hands back for ``values`` (by column type)."""
+    out: dict[str, Any] = {}
+    for name, v in values.items():
+        if v is None:
+            continue
+        t = table.c[name].type
+        if isinstance(t, sa.Boolean):
+            out[name] = bool(v)
+        elif isinstance(t, sa.Float):
+            out[name] = float(v)
+        elif isinstance(t, sa.Integer):
+            out[name] = int(v)
+        else:
+            out[name] = str(v)
+    return out
 
 
 def seal_hash(prev_hash: str, table_name: str, row: Mapping[str, Any]) -> str:
@@ -95,15 +114,31 @@ def _seal_row(conn: Connection, table: sa.Table, row_id: int, seq: int, prev: st
 def append(conn: Connection, table: sa.Table, values: Mapping[str, Any], *, postgres: bool) -> tuple[int, int, str]:
     """Insert a row and seal it as the next chain record; returns (id, seq, hash).
 
-    Runs inside the caller's write transaction. The hash is computed over the row as
-    read back from the database, so what :func:`verify` reads is what was sealed.
+    Runs inside the caller's write transaction, which holds the chain lock (SQLite:
+    BEGIN IMMEDIATE; PostgreSQL: the head row FOR UPDATE), so the next id and
+    sequence number are taken in commit order. The seal is computed over the
+    values as the database returns them (``_as_stored``); every :func:`verify` in the
+    tests re-reads the rows and checks that this holds on SQLite and PostgreSQL.
     """
-    seq, prev = lock_head(conn, postgres=postgres)
-    result = conn.execute(table.insert().values(**values))
-    row_id = int(result.inserted_primary_key[0])
-    digest = _seal_row(conn, table, row_id, seq + 1, prev)
+    # the id is taken here, under the chain lock, so the seal is computed before the insert:
+    # PostgreSQL: the next value of the table's serial sequence; SQLite: largest id + 1
+    # (what SQLite itself picks for an INTEGER PRIMARY KEY)
+    if postgres:
+        next_id: Any = sa.func.nextval(sa.func.pg_get_serial_sequence(table.name, "id"))
+    else:
+        next_id = sa.select(sa.func.coalesce(sa.func.max(table.c.id), 0) + 1).scalar_subquery()
+    q = sa.select(chain_head_t.c.seq, chain_head_t.c.head_hash, next_id).where(chain_head_t.c.id == 1)
+    head = conn.execute(q.with_for_update(of=chain_head_t) if postgres else q).first()
+    if head is None:  # head row deleted outside qcnorm: start again at 0 (verify() reports it)
+        seq, prev = lock_head(conn, postgres=postgres)
+        row_id = conn.execute(sa.select(next_id)).scalar()
+    else:
+        seq, prev, row_id = int(head[0]), str(head[1]), head[2]
+    row = _as_stored(table, {**values, "id": int(row_id), "chain_seq": seq + 1})
+    digest = seal_hash(prev, table.name, row)
+    conn.execute(table.insert().values(**row, record_hash=digest))
     conn.execute(chain_head_t.update().where(chain_head_t.c.id == 1).values(seq=seq + 1, head_hash=digest))
-    return row_id, seq + 1, digest
+    return row["id"], seq + 1, digest
 
 
 def seal_existing(conn: Connection, tables: Mapping[str, sa.Table], *, postgres: bool) -> int:

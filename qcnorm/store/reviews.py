@@ -91,16 +91,17 @@ class ReviewsRoom(BaselinesRoom):
         key = _WORDS.get(decision.strip().lower(), decision.strip().lower()) if isinstance(decision, str) else decision
         check_choice(key, DECISIONS, "decision", func)
         text = _optional_text(comment, "comment", func)
-        with self._reading("read the accounts") as conn:
-            team = self._team_mode(conn)
+        team = signer is not None  # confirmed inside the write transaction
         if team:
             name = self._signer_checked(signer, password, reviewer)
         else:
-            if signer is not None:
-                raise ConfigError(f"This history database has no accounts (single-user mode): {func} takes no signer.")
             name = os_login() if reviewer is None else _required_text(reviewer, "reviewer", func)[:200]
         with self._transaction("save the review") as conn:
-            who = self._who(conn, signer if team else None, "sign_review", func)
+            if self._team_mode(conn) != team:
+                if team:
+                    raise ConfigError(f"This history database has no accounts (single-user mode): {func} takes no signer.")
+                self._signer_checked(None, password, reviewer)  # raises: team mode needs a signer
+            who = self._who(conn, signer, "sign_review", func)
             arow = conn.execute(sa.select(analysis_t).where(analysis_t.c.id == aid)).first()
             if arow is None:
                 raise StoreError(f"No analysis with id {analysis_id} in the history database {self.url}: nothing to review. Check the id.")
