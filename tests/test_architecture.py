@@ -41,6 +41,7 @@ KNOWN_LONG_FUNCTIONS = frozenset({
     "qcnorm/control.py::control_chart",
     "qcnorm/analysis.py::Analysis.to_dict",
     "qcnorm/modelrange.py::model_range",
+    "qcnorm/batch.py::run_batch",
 })
 
 
