@@ -491,7 +491,17 @@ def _ll_weibull(xs: np.ndarray, p: dict[str, float]) -> float:
 
 def _lcs_weibull(xs: np.ndarray, p: dict[str, float]):
     u = np.exp(p["shape"] * (_log_shifted(xs) - math.log(p["scale"])))
-    return np.log(-np.expm1(-u)), -u
+    return _log_cdf_sf_from_hazard(u)
+
+
+def _log_cdf_sf_from_hazard(u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """ln F = ln(1 − e^(−u)) and ln(1 − F) = −u from the cumulative hazard ``u`` (a fresh
+    array, reused): the same operations as ``np.log(-np.expm1(-u)), -u``, in place."""
+    np.negative(u, out=u)  # −u, the log survival
+    lc = np.expm1(u)
+    np.negative(lc, out=lc)
+    np.log(lc, out=lc)
+    return lc, u
 
 
 # gamma -----------------------------------------------------------------------------------
@@ -540,17 +550,23 @@ def _lcs_gamma(xs: np.ndarray, p: dict[str, float]):
     lo, hi = u[:k], u[k:]
     pl = gammainc(a, lo)
     qh = gammaincc(a, hi)
+    # speed: each half written straight into its place in the two outputs (no concatenation)
+    lc = np.empty(u.size)
+    ls = np.empty(u.size)
+    lpl, lqh = lc[:k], ls[k:]
     with np.errstate(divide="ignore"):
-        lpl = np.log(pl)
-        lqh = np.log(qh)
+        np.log(pl, out=lpl)
+        np.log(qh, out=lqh)
     if (pl == 0.0).any():
         m = pl == 0.0
         lpl[m] = a * np.log(lo[m]) - lo[m] - float(gammaln(a + 1.0))
     if (qh == 0.0).any():
         m = qh == 0.0
         lqh[m] = (a - 1.0) * np.log(hi[m]) - hi[m] - float(gammaln(a))
-    lc = np.concatenate((lpl, np.log1p(-qh)))
-    ls = np.concatenate((np.log1p(-pl), lqh))
+    np.negative(qh, out=qh)
+    np.log1p(qh, out=lc[k:])
+    np.negative(pl, out=pl)
+    np.log1p(pl, out=ls[:k])
     return lc, ls
 
 
@@ -566,8 +582,7 @@ def _ll_exponential(xs: np.ndarray, p: dict[str, float]) -> float:
 
 
 def _lcs_exponential(xs: np.ndarray, p: dict[str, float]):
-    u = xs / p["scale"]
-    return np.log(-np.expm1(-u)), -u
+    return _log_cdf_sf_from_hazard(xs / p["scale"])
 
 
 _FAMILIES: dict[str, _Family] = {
