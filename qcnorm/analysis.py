@@ -491,9 +491,12 @@ def analyze(
     # 2. Normality before and after.
     # speed: Anderson–Darling of x and of T(x) were computed for the candidates; reused (private)
     ad_of = {id(t_): a for t_, a, _ in ads.values()}
-    # T(sorted x) of the transform used, as scored in choose_transform; the other arrays are dropped
-    ys_known = next((ty_ for t_, _, ty_ in ads.values() if t_ is tr), None)
+    # T(sorted x) of every candidate as scored in choose_transform: the one used is the sorted
+    # y; the others serve the model range (kept only while it needs them)
+    images = {id(t_): ty_ for t_, _, ty_ in ads.values()}
     ads = {fam: v[:2] for fam, v in ads.items()}
+    if not (model_range and (lsl is not None or usl is not None)):
+        images = {id(tr): images[id(tr)]} if id(tr) in images else {}
     ad_x = ads["none"][1] if "none" in ads else None
     norm_raw = normality_report(x, _sorted=xs, _ad=ad_x)
     if tr.name == "none":
@@ -501,7 +504,7 @@ def analyze(
     else:
         # speed: the transform is increasing, so T(sorted x) is sorted y (checked; else sort);
         # choose_transform already computed it for every candidate (same _forward, same input)
-        ys = ys_known
+        ys = images.get(id(tr))
         if ys is None:
             ys = tr.transform(substitute_zero_readings(tr, xs))
         if not bool(np.all(ys[1:] >= ys[:-1])):
@@ -592,7 +595,7 @@ def analyze(
         mr = _model_range(
             xs, cap, tr, candidates=() if choice is None else choice.candidates, distributions=dists,
             percentile=perc, chosen_ad_p=norm_t.ad_p_value, chosen_ad_statistic=norm_t.ad_statistic,
-            coarse=bool(norm_raw.resolution.coarse),
+            coarse=bool(norm_raw.resolution.coarse), _images=images,
         )
         cap = apply_model_range(cap, mr)
         if mr.model_dependent or (cap.route_verdict != cap.verdict):

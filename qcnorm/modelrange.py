@@ -26,6 +26,7 @@ Rules (each a named constant below, with its reason):
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -290,6 +291,7 @@ def model_range(
     chosen_ad_p: float | None = None,
     chosen_ad_statistic: float | None = None,
     coarse: bool = False,
+    _images: Mapping[int, np.ndarray] | None = None,
 ) -> ModelRange:
     """ppm and Ppk under every fitted model, and the verdict across them.
 
@@ -343,7 +345,8 @@ def model_range(
                        ppm_below=cap.ppm_overall_below, ppm_above=cap.ppm_overall_above,
                        verdict=cap.route_verdict or cap.verdict)
         else:
-            row.update(chosen=False, **_transform_figures(t, xs, lsl, usl, row, n, req, conf))
+            row.update(chosen=False, **_transform_figures(t, xs, lsl, usl, row, n, req, conf,
+                                                          (_images or {}).get(id(t))))
         rows.append(row)
     if not seen_chosen:  # a frozen baseline, or a transform not among the candidates
         sup = transform_support(transform)
@@ -410,12 +413,16 @@ def model_range(
     return _decide(figs, cap)
 
 
-def _transform_figures(t, xs, lsl, usl, row, n, req, conf) -> dict[str, Any]:
-    """Ppk and ppm (overall sigma) of a non-chosen transform candidate at the limits."""
+def _transform_figures(t, xs, lsl, usl, row, n, req, conf, y=None) -> dict[str, Any]:
+    """Ppk and ppm (overall sigma) of a non-chosen transform candidate at the limits.
+
+    ``y``: T(xs) as choose_transform already computed it when scoring the candidate
+    (private plumbing from analyze(); the same ``_forward`` of the same values)."""
     # fitted on xs, so every value is inside the domain; readings of 0 fitted as censored
     # (log/Box–Cox) sit at the transform's stand-in value, as for the chosen transform
-    with np.errstate(all="ignore"):
-        y = t._forward(substitute_zero_readings(t, xs))
+    if y is None:
+        with np.errstate(all="ignore"):
+            y = t._forward(substitute_zero_readings(t, xs))
     mu = float(y.mean())
     sd = float(y.std(ddof=1))
     lo = hi = None
