@@ -15,7 +15,7 @@ from .analysis import Analysis, Baseline, analyze
 from .capability import Capability, capability
 from .constants import ChartConstants, chart_constants
 from .control import ChartBaseline, ControlChart, control_chart, limits_in_units, run_rules
-from .data import Measurements, list_characteristics, read_measurements
+from .io import Measurements, list_characteristics, read_measurements
 from .distributions import fit_distribution, fit_distributions, percentile_capability
 from .errors import (
     ConfigError,

@@ -24,8 +24,10 @@ from .capability import Capability, capability
 from .control import DEFAULT_RULES, RULE_SETS, ChartBaseline, ControlChart, UnitsLimits, control_chart, limits_in_units
 from .distributions import DistributionRanking, fit_distributions, percentile_capability
 from .errors import ConfigError, DataError, QcnormError
+from .modelrange import apply_model_range
+from .modelrange import model_range as _model_range
 from .normality import NormalityReport, normality_report
-from .selection import ZERO_CHOICES, TransformChoice, choose_transform
+from .selection import ZERO_CHOICES, TransformChoice, choose_transform, gauge_zero_step
 from .transforms import Transform, substitute_zero_readings, transform_from_params
 
 __all__ = ["analyze", "Analysis", "Baseline", "Settings", "TRANSFORM_CHOICES", "CHART_CHOICES", "RULE_CHOICES"]
@@ -87,6 +89,7 @@ class Settings(Result):
     round_lambda: bool
     confidence: float
     zeros: str = "censor"
+    model_range: bool = True
 
 
 @dataclass(frozen=True, slots=True)
@@ -319,6 +322,7 @@ def analyze(
     rows: Sequence[int] | None = None,
     characteristic: str | None = None,
     units: str | None = None,
+    model_range: bool = True,
 ) -> Analysis:
     """Analyse one characteristic: transform, normality, control limits, capability.
 
@@ -346,6 +350,11 @@ def analyze(
         its center and sigma are used for the limits.
     required_index : float
         The capability index the verdict is judged against (default 1.33).
+    model_range : bool, default True
+        Evaluate ppm and Ppk under every fitted transform and distribution
+        (``capability.model_range``) and base the verdict on the most pessimistic
+        adequate model (:mod:`qcnorm.modelrange`). False keeps the chosen transform's
+        verdict alone (used by the benchmark to show the extra cost).
     round_lambda : bool
         Round the Box–Cox λ to −1, −0.5, 0, 0.5, 1 or 2 when that value lies inside its 95 %
         interval (default); False uses the maximum-likelihood λ as estimated. Either way
@@ -562,11 +571,26 @@ def analyze(
     try:
         log_c = ads.get("log")  # its A² is that of ln x only without a shift
         ad_ln = log_c[1] if log_c is not None and log_c[0].params_.get("shift") == 0.0 else None
-        dists = fit_distributions(x, _sorted=xs, _case3={"normal": ad_x, "lognormal": ad_ln})
+        # readings of 0 that the gauge rule (selection.gauge_zero_step) calls rounded small values:
+        # the positive families take them at h/4 (distributions.fit_distributions), unless the
+        # user asked to keep zeros as zeros
+        zstep = gauge_zero_step(xs) if zeros == "censor" else None
+        dists = fit_distributions(x, _sorted=xs, _case3={"normal": ad_x, "lognormal": ad_ln},
+                                  _zero_step=zstep)
         if cap is not None and dists.best is not None:
             perc = percentile_capability(dists.best, lsl=lsl, usl=usl)
     except QcnormError as exc:
         warnings.append(f"No distribution could be fitted for the percentile cross-check: {exc}")
+    if cap is not None and model_range:
+        # the verdict across adequate models: fitted objects reused, only the limits evaluated
+        mr = _model_range(
+            xs, cap, tr, candidates=() if choice is None else choice.candidates, distributions=dists,
+            percentile=perc, chosen_ad_p=norm_t.ad_p_value, chosen_ad_statistic=norm_t.ad_statistic,
+            coarse=bool(norm_raw.resolution.coarse),
+        )
+        cap = apply_model_range(cap, mr)
+        if mr.model_dependent or (cap.route_verdict != cap.verdict):
+            warnings.append(mr.summary_text + (" Model-dependent: collect more data." if mr.model_dependent else ""))
 
     # Exclusions: rows dropped at reading, then chart points excluded as assignable causes.
     excluded = list(ingest_excluded)
@@ -582,7 +606,7 @@ def analyze(
     settings = Settings(
         lsl=lsl, usl=usl, target=target, transform=transform, chart=chart, rules=rules,
         required_index=required_index, exclude=excl, baseline=baseline,
-        round_lambda=round_lambda, confidence=confidence, zeros=zeros,
+        round_lambda=round_lambda, confidence=confidence, zeros=zeros, model_range=bool(model_range),
     )
     return Analysis(
         n=n, values=x, transformed=y, subgroups=subgroups, rows=row_numbers, settings=settings,

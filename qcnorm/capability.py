@@ -30,7 +30,17 @@ from ._results import Result
 from ._validation import check_optional_float, check_sample
 from .errors import ConfigError, DataError
 
-__all__ = ["Interval", "Capability", "capability", "VERDICTS"]
+__all__ = [
+    "Interval",
+    "Capability",
+    "capability",
+    "VERDICTS",
+    "Support",
+    "SIDE_STATUSES",
+    "side_status",
+    "transform_support",
+    "distribution_support",
+]
 
 _FUNC = "capability"
 _LN_1E6 = math.log(1e6)
@@ -114,6 +124,20 @@ class Capability(Result):
         One plain sentence with the numbers.
     notes : tuple of str
         Plain-words remarks.
+    lower_side, upper_side : str
+        What each limit means under this transform (:data:`SIDE_STATUSES`, the rule shared
+        with the percentile route): ``"absent"``, ``"assessed"``, ``"cannot_fail"`` or
+        ``"beyond_fitted_bound"``.
+    route_verdict : str or None
+        The verdict of this transform route alone. Equal to ``verdict`` unless
+        analyze() based the verdict on a more pessimistic adequate model (see
+        ``model_range``).
+    verdict_model : str or None
+        The model the verdict rests on (the transform's name unless the model range
+        chose another).
+    model_range : ModelRange or None
+        ppm and Ppk under every candidate model, their adequacy and the verdict basis
+        (set by analyze(); see :mod:`qcnorm.modelrange`).
     """
 
     lsl: float | None
@@ -162,6 +186,11 @@ class Capability(Result):
     verdict_lower_bound: float | None
     verdict_text: str
     notes: tuple[str, ...]
+    lower_side: str = "absent"
+    upper_side: str = "absent"
+    route_verdict: str | None = None
+    verdict_model: str | None = None
+    model_range: Any = None
 
     def summary(self) -> pd.DataFrame:
         """Table of the indices: columns ``index``, ``estimate``, ``low``, ``high``.
@@ -190,6 +219,119 @@ class Capability(Result):
             row("Cpm", self.cpm, None),
         ]
         return pd.DataFrame(rows, columns=["index", "estimate", "low", "high"])
+
+
+# --------------------------------------------------------------------------------------
+# one-sided logic shared by the transform route and the percentile route
+# --------------------------------------------------------------------------------------
+
+#: What a specification limit means under a model, per side.
+SIDE_STATUSES = {
+    "absent": "no limit was given on this side",
+    "assessed": "the model puts some probability beyond the limit: the side enters the indices",
+    "cannot_fail": "the limit lies at or beyond a physical bound of the model (e.g. LSL ≤ 0 for a "
+                   "characteristic that cannot be negative): this side cannot fail under this model",
+    "beyond_fitted_bound": "the limit lies beyond a bound fitted to the data (Johnson S_B/S_L, a fitted "
+                           "threshold or shift): the model shows no risk there, but a fitted bound is "
+                           "not a physical limit, so this is never read as 'cannot fail'",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Support(Result):
+    """Where a model puts probability, in measurement units.
+
+    ``low``/``high`` are the ends (±inf when unbounded); ``*_physical`` says whether an
+    end is a physical bound of the characteristic (0 for a model of positive values:
+    an unshifted log or Box–Cox transform, the lognormal, Weibull, gamma and exponential
+    distributions). An end estimated from the data (Johnson S_B/S_L bounds, the
+    threshold of a 3-parameter lognormal, the shift of a shifted log/Box–Cox) is never
+    physical.
+    """
+
+    low: float = -math.inf
+    high: float = math.inf
+    low_physical: bool = False
+    high_physical: bool = False
+    model: str = ""
+
+    @property
+    def low_fitted(self) -> bool:
+        return math.isfinite(self.low) and not self.low_physical
+
+    @property
+    def high_fitted(self) -> bool:
+        return math.isfinite(self.high) and not self.high_physical
+
+
+#: Transforms whose lower domain end is 0 unless shifted (then it is fitted).
+_ZERO_BOUNDED_TRANSFORMS = ("log", "boxcox")
+#: Distribution families whose support is x > 0 (a physical bound).
+_POSITIVE_FAMILIES = ("lognormal", "weibull", "gamma", "exponential")
+
+
+def transform_support(transform: Any) -> Support:
+    """The support of the model "T(X) is normal" for a fitted transform T.
+
+    The support is the transform's domain. Its lower end is physical only for an
+    unshifted log or Box–Cox transform (domain x > 0); every other finite end (Johnson
+    S_B/S_L bounds, a fitted shift or threshold) was estimated from the data.
+    """
+    dom = transform.domain
+    name = str(getattr(transform, "name", "transform"))
+    params = getattr(transform, "params_", {}) or {}
+    shift = float(params.get("shift", 0.0) or 0.0)
+    physical_low = (name in _ZERO_BOUNDED_TRANSFORMS and abs(shift) < 1e-12
+                    and math.isfinite(dom.low) and abs(float(dom.low)) < 1e-300)
+    return Support(low=float(dom.low), high=float(dom.high), low_physical=physical_low,
+                   high_physical=False, model=name)
+
+
+def distribution_support(name: str, params: Any) -> Support:
+    """The support of a fitted distribution family (names of ``qcnorm.distributions``)."""
+    if name in _POSITIVE_FAMILIES:
+        return Support(low=0.0, low_physical=True, model=name)
+    if name == "lognormal3":
+        return Support(low=float(params["threshold"]), model=name)
+    return Support(model=name)
+
+
+def side_status(support: Support, limit: float | None, which: str) -> str:
+    """What one specification limit means under a model (the shared one-sided rule).
+
+    Parameters
+    ----------
+    support : Support
+        The model's support (:func:`transform_support`, :func:`distribution_support`).
+    limit : float or None
+        The LSL (``which="lower"``) or USL (``which="upper"``) in measurement units.
+
+    Returns
+    -------
+    str
+        One of :data:`SIDE_STATUSES`: ``"absent"``, ``"assessed"``, ``"cannot_fail"``
+        (a lower limit at or below a physical lower bound, or an upper limit at or above
+        a physical upper bound) or ``"beyond_fitted_bound"`` (the same against a bound
+        fitted to the data — never "cannot fail").
+
+    Notes
+    -----
+    A limit on the *wrong* side (a USL at or below the lower end, an LSL at or above the
+    upper end) is reported as ``"assessed"`` here: every part would be out, and the
+    route that uses the model says so (the transform route refuses it).
+    """
+    if limit is None:
+        return "absent"
+    v = float(limit)
+    if which == "lower":
+        if v <= support.low:
+            return "cannot_fail" if support.low_physical else "beyond_fitted_bound"
+        return "assessed"
+    if which == "upper":
+        if v >= support.high:
+            return "cannot_fail" if support.high_physical else "beyond_fitted_bound"
+        return "assessed"
+    raise ConfigError(f"The 'which' parameter of side_status must be 'lower' or 'upper'. Got {which!r} instead.")
 
 
 # --------------------------------------------------------------------------------------
@@ -243,17 +385,24 @@ def _map_limit(
             f"The {label} {_fmt(value)} cannot be mapped through the {name} transform "
             f"(domain {_domain_text(domain)}). Choose another transform or check the limit."
         )
-    if which == "lower" and side == "below":
+    if (which == "lower" and side == "below") or (which == "upper" and side == "above"):
+        # the shared one-sided rule decides what the side means (same as the percentile route)
+        status = side_status(transform_support(transform), value, which)
+        lowest = which == "lower"
+        end = _fmt(domain.low if lowest else domain.high)
+        if status == "cannot_fail":
+            return None, (
+                f"{label} {_fmt(value)} lies at or {'below the lowest' if lowest else 'above the highest'} "
+                f"value the {name} transform allows ({end}): no product can "
+                f"{'fall below' if lowest else 'rise above'} it, so "
+                + (f"only the {'upper' if lowest else 'lower'} side is assessed." if other_given
+                   else "that side cannot fail.")
+            )
         return None, (
-            f"LSL {_fmt(value)} lies at or below the lowest value the {name} transform allows "
-            f"({_fmt(domain.low)}): no product can fall below it, so "
-            + ("only the upper side is assessed." if other_given else "that side cannot fail.")
-        )
-    if which == "upper" and side == "above":
-        return None, (
-            f"USL {_fmt(value)} lies at or above the highest value the {name} transform allows "
-            f"({_fmt(domain.high)}): no product can rise above it, so "
-            + ("only the lower side is assessed." if other_given else "that side cannot fail.")
+            f"{label} {_fmt(value)} lies beyond the {'lower' if lowest else 'upper'} bound that the {name} "
+            f"transform fitted to the data ({end}): this model shows no risk on that side, but a bound "
+            "fitted to the data is not a physical limit, so the side is NOT shown as 'cannot fail' — "
+            "compare the range of figures across the adequate models."
         )
     if which == "upper":
         raise ConfigError(
@@ -597,4 +746,8 @@ def capability(
         verdict_lower_bound=vlb,
         verdict_text=text,
         notes=tuple(notes),
+        lower_side=side_status(transform_support(transform), lsl, "lower"),
+        upper_side=side_status(transform_support(transform), usl, "upper"),
+        route_verdict=verdict,
+        verdict_model=name if verdict != "not_assessed" else None,
     )

@@ -197,7 +197,8 @@ def _item_capability(d: Mapping[str, Any]) -> ChecklistItem:
     req = cap.get("required_index")
     if req is None:
         req = (d.get("settings") or {}).get("required_index")
-    rule = "lower confidence bound of the smaller of Cpk and Ppk ≥ the required index"
+    rule = ("lower confidence bound of the smaller of Cpk and Ppk ≥ the required index, under the most "
+            "pessimistic adequate model")
     name = "Capability at or above the requirement (with its lower confidence bound)?"
     point, lb, iname = cap.get("verdict_point"), cap.get("verdict_lower_bound"), cap.get("verdict_index_name")
     if point is None or lb is None or req is None:
@@ -216,6 +217,12 @@ def _item_capability(d: Mapping[str, Any]) -> ChecklistItem:
         detail += ": the point estimate meets it but the lower bound does not; more data are needed."
     else:
         detail += ": below the requirement."
+    mr = cap.get("model_range") or {}
+    if mr.get("basis_model") and cap.get("verdict_model") and cap.get("verdict_model") != cap.get("transform_name"):
+        detail += (f" Index from the most pessimistic adequate model ({mr['basis_model']}, {mr.get('basis_route')} "
+                   f"route); the chosen transform alone says '{cap.get('route_verdict')}'.")
+    if mr.get("model_dependent"):
+        detail += " Model-dependent: the adequate models disagree; collect more data."
     if (d.get("control") or {}).get("in_control") is False:
         detail += " Not meaningful while the process is out of control."
     return ChecklistItem("capability", name, ok, detail, rule)

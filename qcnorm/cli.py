@@ -1,4 +1,5 @@
-"""Command-line interface: ``python -m qcnorm analyze FILE ...`` (and ``batch``).
+"""Command-line interface: ``python -m qcnorm analyze FILE ...`` (and ``batch``; ``users``
+and ``store verify`` live in ``cli_store.py``).
 
 Exit codes (stable contract): 0 ok, 2 bad input (one clear message on stderr, no
 traceback), 1 internal error (a short message; set QCNORM_DEBUG=1 for the traceback).
@@ -9,6 +10,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import re
 import sys
 import traceback
 from collections.abc import Sequence
@@ -16,7 +18,8 @@ from typing import Any
 
 from ._version import __version__
 from .control import DEFAULT_RULES, RULE_SETS
-from .errors import QcnormError
+from .errors import QcnormError, ReadError
+from .io.hints import HINTS, hint_text
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
 
@@ -30,6 +33,14 @@ class _Parser(argparse.ArgumentParser):
         self.print_usage(sys.stderr)
         sys.stderr.write(f"qcnorm: error: {message}\n")
         raise SystemExit(EXIT_BAD_INPUT)
+
+
+def _ppm(v) -> str:
+    """ppm in the text summary: whole numbers with thousands separators from 100 up."""
+    if v is None:
+        return "—"
+    v = float(v)
+    return f"{v:,.0f}" if v >= 100 else f"{v:.3g}"
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -69,8 +80,9 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--date", metavar="YYYY-MM-DD",
                    help="ISO date (or date-time, 2026-11-25T22:00) of the shift, printed in the PDF header "
                         "and used as the PDF's creation date (with --pdf)")
-    b = sub.add_parser("batch", help="analyse every characteristic of a wide or long file")
-    b.add_argument("file", help="CSV/TSV/XLSX file with one column per characteristic, or a long file")
+    b = sub.add_parser("batch", help="analyse every characteristic of a wide or long file, or a folder of files")
+    b.add_argument("file", help="CSV/TSV/XLSX file with one column per characteristic, a long file, "
+                                "or a folder of CSV files (a characteristic's rows from all files together)")
     b.add_argument("--specs", metavar="SPECS.csv",
                    help="spec limits: columns characteristic, lsl, usl, target, required_index, units")
     b.add_argument("--subgroup", help="column holding subgroup labels (shared by all characteristics)")
@@ -78,6 +90,15 @@ def build_parser() -> argparse.ArgumentParser:
     b.add_argument("--out", metavar="summary.csv|.xlsx", help="write the ranked summary table")
     b.add_argument("--pdf-dir", metavar="DIR", help="write one PDF summary per characteristic")
     b.add_argument("--jobs", type=int, default=0, help="worker processes (0 = one per core, the default)")
+    b.add_argument("--engine", default="auto", choices=["auto", "local", "pool", "dask"],
+                   help="where the work runs: local (this process), pool (processes on this machine), dask "
+                        "(the --scheduler cluster, or a cluster on this machine); auto: dask when a scheduler "
+                        "is given, else pool")
+    b.add_argument("--scheduler", metavar="ADDRESS",
+                   help="Dask scheduler address, e.g. tcp://10.0.0.5:8786 (default: $QCNORM_SCHEDULER)")
+    b.add_argument("--read", dest="read_mode", default="auto", choices=["auto", "whole", "chunked"],
+                   help="read the file whole, or in chunks (large CSV files and folders); auto picks by size")
+    b.add_argument("--chunk-rows", type=int, default=200_000, help="rows per chunk when reading in chunks")
     b.add_argument("--transform", default="auto", choices=["auto", "none", "log", "boxcox", "yeojohnson", "johnson"])
     b.add_argument("--chart", default="auto", choices=["auto", "individuals", "xbar_r", "xbar_s"])
     b.add_argument("--rules", default=DEFAULT_RULES, choices=list(RULE_SETS),
@@ -87,21 +108,27 @@ def build_parser() -> argparse.ArgumentParser:
     b.add_argument("--zeros", default="censor", choices=["censor", "exclude"],
                    help="readings of 0 below the gauge step: censored (default) or kept as zeros")
     b.add_argument("--json", action="store_true", help="print the summary rows as JSON")
+    from .cli_store import add_parsers
+
+    add_parsers(sub)
     return p
 
 
 def _cmd_batch(args: argparse.Namespace) -> int:
     from .batch import run_batch
-    from .data import export_csv, export_xlsx
+    from .io import export_csv, export_xlsx
 
     if not os.path.exists(args.file):
         raise QcnormError(f"File not found: {args.file}. Check the path and try again.")
+    if args.chunk_rows < 1:
+        raise QcnormError(f"--chunk-rows must be a whole number ≥ 1. Got {args.chunk_rows} instead.")
     if args.out and not args.out.lower().endswith((".csv", ".xlsx")):
         raise QcnormError(f"--out must end in .csv or .xlsx. Got {args.out!r} instead.")
     res = run_batch(
         args.file, specs=args.specs, subgroup=args.subgroup, sheet=args.sheet, jobs=args.jobs,
         pdf_dir=args.pdf_dir, progress=sys.stderr.isatty(), transform=args.transform,
         chart=args.chart, rules=args.rules, round_lambda=not args.exact_lambda, zeros=args.zeros,
+        engine=args.engine, scheduler=args.scheduler, read_mode=args.read_mode, chunk_rows=args.chunk_rows,
     )
     df = res.frame()
     if args.out:
@@ -125,7 +152,7 @@ def _cmd_batch(args: argparse.Namespace) -> int:
         if r.error:
             sys.stdout.write(f"! {r.characteristic}: {r.error}\n")
     sys.stdout.write(
-        f"{len(res.rows)} characteristic(s) in {res.seconds:.1f} s with {res.jobs} worker(s); "
+        f"{len(res.rows)} characteristic(s) in {res.seconds:.1f} s with {res.jobs} worker(s) ({res.engine}); "
         f"{res.n_failed} could not be analysed. Ranked worst first by the lower confidence bound of "
         "min(Cpk, Ppk).\n"
     )
@@ -136,7 +163,7 @@ def _cmd_batch(args: argparse.Namespace) -> int:
 
 
 def _read(args: argparse.Namespace):
-    from .data import read_measurements
+    from .io import read_measurements
 
     source: Any = args.file
     if args.file == "-":
@@ -209,6 +236,18 @@ def text_summary(d: dict[str, Any]) -> str:
             lines.append(
                 f"  percentile method ({p['distribution']}): Pp {_fmt(p.get('pp'), 3)}, Ppk {_fmt(p.get('ppk'), 3)}"
             )
+        mr = cap.get("model_range") or {}
+        if mr.get("models"):
+            lines.append(f"  across models: {mr.get('summary_text') or ''}".rstrip())
+            for m in mr["models"]:
+                flag = ", bound near limit" if m.get("bound_near_limit") else ""
+                lines.append(
+                    f"   - {m['model']}{' (chosen)' if m.get('chosen') else ''} [{m['route']}]: "
+                    f"ppm {_ppm(m.get('ppm'))}, Ppk {_fmt(m.get('ppk'), 3)}, "
+                    f"{'adequate' if m.get('adequate') else 'not adequate'}{flag}; alone: {m.get('verdict')}"
+                )
+            if mr.get("verdict_basis") and mr["verdict_basis"] not in (cap.get("verdict_text") or ""):
+                lines.append(f"  {mr['verdict_basis']}")
         lines.append(f"  verdict: {cap.get('verdict_text') or cap.get('verdict')}")
     else:
         lines.append("Capability: not assessed (no spec limits given; use --lsl/--usl)")
@@ -247,24 +286,56 @@ def _cmd_analyze(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-# The core's messages name Python keyword arguments; on the command line say the flags.
-_CLI_WORDS = (
-    ("list_characteristics() shows their counts", "'python -m qcnorm batch FILE' analyses them all"),
-    ("include_censored=True", "--include-censored"),
-    ("characteristic=", "--characteristic"),
-    ("column=", "--column"),
-    ("subgroup=", "--subgroup"),
-    ("sheet=", "--sheet"),
-)
+#: The reader's hints (codes of ``qcnorm.io.hints.HINTS``) in the words of the command line:
+#: the flags instead of Python keyword arguments. ``{flag}`` is the flag of the hint's
+#: ``param``; a code not listed keeps the reader's own wording.
+_CLI_WORDS: dict[str, str] = {
+    "column.choose": "Choose one with --column (its name or 0-based index); 'python -m qcnorm batch FILE' "
+                     "analyses them all.",
+    "column.ambiguous": "Pass the full name with its units or a 0-based index as {flag}.",
+    "column.unknown": "Pass one of these names (or its 0-based index) as {flag}.",
+    "column.index": "Pass one of these names or an index from 0 to {last}.",
+    "characteristic.choose": "Pass --characteristic with one of these names.",
+    "characteristic.unknown": "Pass one of these as --characteristic.",
+    "characteristic.conflict": "Leave out --column or --characteristic.",
+    "characteristic.not_long": "Choose the measurement column with --column.",
+    "sheet.choose": "Pass one of these names as --sheet.",
+    "sheet.another": "pass --sheet to read another",
+    "censored.include": "pass --include-censored to use the stated limits instead",
+    "censored.include_short": "(--include-censored uses the limit)",
+}
+#: The reader's keyword arguments that a message may name ("column='x'"), and their flags.
+_CLI_FLAGS = {"characteristic": "--characteristic", "column": "--column", "subgroup": "--subgroup",
+              "sheet": "--sheet"}
+_OPTION = re.compile(r"\b(" + "|".join(_CLI_FLAGS) + r")=")
 
 
-def _in_cli_words(message: str) -> str:
-    for py, flag in _CLI_WORDS:
-        message = message.replace(py, flag)
-    return message
+def _in_cli_words(exc: BaseException) -> str:
+    """The message of ``exc`` with the reader's hints and option names in the words of the CLI.
+
+    A :class:`ReadError` carries its hint as a code: the CLI's wording of that code
+    replaces the reader's. Hints quoted inside other messages (the reasons of excluded
+    rows in "too few values") are found by their code's text in ``HINTS``.
+    """
+    words = {code: text for code, text in _CLI_WORDS.items() if "{" not in HINTS[code]}
+    if isinstance(exc, ReadError) and exc.hint_code in _CLI_WORDS:
+        param = str(exc.hint_args.get("param", ""))
+        flag = _CLI_FLAGS.get(param, f"{param}=")
+        text = f"{exc.problem} {_CLI_WORDS[exc.hint_code].format(flag=flag, **exc.hint_args)}"
+    else:
+        text = str(exc)
+    for code, cli in words.items():
+        text = text.replace(hint_text(code), cli)
+    return _OPTION.sub(lambda m: _CLI_FLAGS[m.group(1)] + " ", text)
 
 
-COMMANDS = {"analyze": _cmd_analyze, "batch": _cmd_batch}
+def _cmd_users_or_store(args: argparse.Namespace) -> int:
+    from .cli_store import COMMANDS as STORE_COMMANDS
+
+    return STORE_COMMANDS[args.command](args)
+
+
+COMMANDS = {"analyze": _cmd_analyze, "batch": _cmd_batch, "users": _cmd_users_or_store, "store": _cmd_users_or_store}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -276,7 +347,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return COMMANDS[args.command](args)
     except QcnormError as exc:
-        sys.stderr.write(f"qcnorm: {_in_cli_words(str(exc))}\n")
+        sys.stderr.write(f"qcnorm: {_in_cli_words(exc)}\n")
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         sys.stderr.write("qcnorm: interrupted\n")

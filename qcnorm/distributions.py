@@ -25,6 +25,7 @@ Pp / Ppk from its 0.135 %, 50 % and 99.865 % quantiles.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
@@ -40,12 +41,15 @@ from scipy.special import (
     gammaincc,
     gammaincinv,
     gammaln,
+    log_ndtr,
     ndtr,
+    ndtri,
     polygamma,
 )
 
 from ._results import Result
 from ._validation import check_optional_float, check_sample
+from .capability import distribution_support, side_status
 from .errors import ConfigError, DataError, DomainError
 from .normality import _log_phi_pair_sorted, _trusted_sorted_ok, _vdot, anderson_darling_a2
 
@@ -198,6 +202,12 @@ class PercentileCapability(Result):
         Fitted parts per million outside the limits (total and per side).
     method : str
         The method in words.
+    lower_side, upper_side : str
+        What each limit means under the fitted model (the one-sided rule shared with the
+        transform route, :func:`qcnorm.capability.side_status`). A side that
+        ``"cannot_fail"`` is left out of Pp/Ppk and its ppm is 0 (never the governing index).
+    notes : tuple of str
+        Plain-words remarks (a side that cannot fail, a limit beyond a fitted bound).
     """
 
     distribution: str
@@ -214,6 +224,9 @@ class PercentileCapability(Result):
     ppm_below: float | None
     ppm_above: float | None
     method: str = "percentile method (ISO 22514-2; Clements 1989)"
+    lower_side: str = "absent"
+    upper_side: str = "absent"
+    notes: tuple[str, ...] = ()
 
 
 # --------------------------------------------------------------------------------------
@@ -732,6 +745,7 @@ def fit_distributions(
     *,
     _sorted: np.ndarray | None = None,
     _case3: dict | None = None,
+    _zero_step: float | None = None,
 ) -> DistributionRanking:
     """Fit several families to the same data and rank them by AIC.
 
@@ -773,11 +787,36 @@ def fit_distributions(
         xs = np.sort(check_sample(x, "x", func, min_n=FIT_MIN_N))  # the usual messages
     fits: list[DistributionFit] = []
     skipped: list[tuple[str, str]] = []
+    # ``_zero_step`` (private, for analyze()): the gauge step h of rounded readings. A
+    # reading of exactly 0 with no negative value is then a rounded small value in
+    # [0, h/2); the positive families are fitted with it at h/4, the middle of that
+    # interval (a midpoint for interval-censored values; common practice), their likelihood
+    # counts it as censored in (0, h/2] like the transform candidates', and say so.
+    xs_pos, zero_note = xs, ""
+    if _zero_step is not None and _zero_step > 0 and xs[0] == 0.0:
+        k = int(np.searchsorted(xs, 0.0, side="right"))
+        if k < xs.size and xs[k] > 0.0:
+            xs_pos = xs.copy()
+            xs_pos[:k] = _zero_step / 4.0
+            zero_note = (f" {k} reading(s) of 0 were taken as {_zero_step / 4.0:g}, the middle of their rounding "
+                         f"interval 0 to {_zero_step / 2.0:g} (gauge step {_zero_step:g}).")
     for nm in dict.fromkeys(chosen):
+        use_pos = zero_note and _FAMILIES[nm].support == "positive"
         try:
             # ``_case3`` (private, for analyze()): {"normal": ADResult of x, "lognormal":
             # ADResult of ln x} (case 3 of the normal test), already computed elsewhere.
-            fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
+            if use_pos:
+                f = _fit_sorted(nm, xs_pos)
+                # Likelihood as the transform candidates score censored zeros (selection.py):
+                # each 0 reading enters as ln P(0 < X ≤ h/2), not as a density at h/4, so the
+                # AICs of both routes stay comparable.
+                k0 = int(np.count_nonzero(xs == 0.0))
+                half = _zero_step / 2.0
+                ll = f.loglik - k0 * float(f.logpdf(_zero_step / 4.0)) + k0 * float(f.logcdf(half))
+                fits.append(dataclasses.replace(f, loglik=ll, aic=2.0 * f.n_params - 2.0 * ll,
+                                                note=f.note + zero_note))
+            else:
+                fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
         except DataError as exc:  # includes DomainError
             skipped.append((nm, str(exc)))
     if not fits:
@@ -785,6 +824,53 @@ def fit_distributions(
         raise DataError(f"No distribution could be fitted to these data. {reasons}")
     fits.sort(key=lambda f: f.aic)
     return DistributionRanking(fits=tuple(fits), best=fits[0], skipped=tuple(skipped))
+
+
+def _fast_quantiles_tails(name: str, p: dict[str, float], q: np.ndarray, lsl, usl):
+    """(quantiles at q, log F(lsl), log(1 − F(usl))) in closed form, or None for a family
+    without one. The same values as scipy.stats' ppf/logcdf/logsf (checked in the tests)
+    without its per-call argument handling (about 1 ms per fitted model)."""
+    nan = math.nan
+    if name in ("normal", "lognormal", "lognormal3"):
+        m, sd = (p["mean"], p["sigma"]) if name == "normal" else (p["mu"], p["sigma"])
+        z = m + sd * ndtri(q)
+        if name == "normal":
+            qs = z
+            zl = None if lsl is None else (lsl - m) / sd
+            zu = None if usl is None else (usl - m) / sd
+        else:
+            th = p.get("threshold", 0.0)
+            qs = th + np.exp(z)
+            zl = None if lsl is None else (-math.inf if lsl <= th else (math.log(lsl - th) - m) / sd)
+            zu = None if usl is None else (-math.inf if usl <= th else (math.log(usl - th) - m) / sd)
+        lc = nan if zl is None else float(log_ndtr(zl))
+        ls = nan if zu is None else float(log_ndtr(-zu))
+        return qs, lc, ls
+    if name in ("weibull", "exponential"):
+        k = p.get("shape", 1.0)
+        lam = p["scale"]
+        qs = lam * (-np.log1p(-q)) ** (1.0 / k)
+
+        def h(v):  # cumulative hazard (v/λ)^k, 0 at or below 0
+            return 0.0 if v <= 0.0 else (v / lam) ** k
+
+        lc = nan if lsl is None else (-math.inf if lsl <= 0.0 else float(np.log(-np.expm1(-h(lsl)))))
+        ls = nan if usl is None else -h(usl)
+        return qs, lc, ls
+    if name == "gamma":
+        a, th = p["shape"], p["scale"]
+        qs = th * gammaincinv(a, q)
+        lc = ls = nan
+        if lsl is not None:
+            pl = float(gammainc(a, lsl / th)) if lsl > 0.0 else 0.0
+            lc = math.log(pl) if pl > 0.0 else (-math.inf if lsl <= 0.0 else nan)
+        if usl is not None:
+            qu = float(gammaincc(a, usl / th)) if usl > 0.0 else 1.0
+            ls = math.log(qu) if qu > 0.0 else nan
+        if math.isnan(lc) and lsl is not None or math.isnan(ls) and usl is not None:
+            return None  # a tail underflowed: let scipy's log-space routines answer
+        return qs, lc, ls
+    return None
 
 
 def percentile_capability(
@@ -841,21 +927,45 @@ def percentile_capability(
             "Check that the two limits are not swapped or equal."
         )
     q_lo = float(ndtr(-3.0))
-    x_low, x_med, x_high = (float(v) for v in fit.ppf([q_lo, 0.5, 1.0 - q_lo]))
-    pp = None if (lsl is None or usl is None) else (usl - lsl) / (x_high - x_low)
-    ppu = None if usl is None else (usl - x_med) / (x_high - x_med)
-    ppl = None if lsl is None else (x_med - lsl) / (x_med - x_low)
+    qv = np.array([q_lo, 0.5, 1.0 - q_lo])
+    fast = _fast_quantiles_tails(fit.name, fit.params, qv, lsl, usl)
+    if fast is None:
+        x_low, x_med, x_high = (float(v) for v in fit.ppf(qv))
+    else:
+        x_low, x_med, x_high = (float(v) for v in fast[0])
+    # The one-sided rule shared with the transform route: a limit where the model puts
+    # zero probability because of a PHYSICAL bound (LSL ≤ 0 for a positive family) is
+    # "cannot fail" and leaves the indices; one beyond a fitted bound (the lognormal3
+    # threshold) stays in them (its PPL is a finite, honest number).
+    sup = distribution_support(fit.name, fit.params)
+    lo_side = side_status(sup, lsl, "lower")
+    hi_side = side_status(sup, usl, "upper")
+    lo_in = lsl is not None and lo_side != "cannot_fail"
+    hi_in = usl is not None and hi_side != "cannot_fail"
+    notes: list[str] = []
+    for lim, side, label, word in ((lsl, lo_side, "LSL", "below"), (usl, hi_side, "USL", "above")):
+        if side == "cannot_fail":
+            notes.append(f"{label} {lim:g} lies where the fitted {fit.name} distribution puts no probability "
+                         f"(a physical bound): no product can fall {word} it, so that side is not assessed.")
+        elif side == "beyond_fitted_bound":
+            notes.append(f"{label} {lim:g} lies beyond the threshold fitted to the data: the model shows no "
+                         "risk there, but a fitted bound is not a physical limit.")
+    pp = (usl - lsl) / (x_high - x_low) if (lo_in and hi_in) else None
+    ppu = (usl - x_med) / (x_high - x_med) if hi_in else None
+    ppl = (x_med - lsl) / (x_med - x_low) if lo_in else None
     sides = [v for v in (ppu, ppl) if v is not None]
     ppk = min(sides) if sides else None
 
     below = above = total = None
     logs = []
     if lsl is not None:
-        lb = float(fit.logcdf(lsl)) + _LN_1E6
+        lc = float(fit.logcdf(lsl)) if fast is None else fast[1]
+        lb = lc + _LN_1E6 if lo_in else -math.inf
         below = math.exp(lb)
         logs.append(lb)
     if usl is not None:
-        la = float(fit.logsf(usl)) + _LN_1E6
+        ls = float(fit.logsf(usl)) if fast is None else fast[2]
+        la = ls + _LN_1E6 if hi_in else -math.inf
         above = math.exp(la)
         logs.append(la)
     if logs:
@@ -874,4 +984,7 @@ def percentile_capability(
         ppm_expected=total,
         ppm_below=below,
         ppm_above=above,
+        lower_side=lo_side,
+        upper_side=hi_side,
+        notes=tuple(notes),
     )

@@ -14,7 +14,9 @@ escapes is a bug in qcnorm.
           ├── NotFittedError         a transform used before fit()
           ├── ReadError              a file or pasted text that cannot be read as measurements
           ├── ConfigError            an option with an unknown or inconsistent value
-          └── StoreError             the history database cannot be read or written
+          ├── StoreError             the history database cannot be read or written
+          └── AuthError              sign-in refused (wrong password, locked, disabled)
+               └── PermissionDenied  the signed-in account may not do this (role, same person)
 
     UserWarning
      └── QcnormWarning               soft problems (small n, coarse resolution, approximate p)
@@ -34,6 +36,8 @@ __all__ = [
     "ReadError",
     "ConfigError",
     "StoreError",
+    "AuthError",
+    "PermissionDenied",
     "QcnormWarning",
 ]
 
@@ -55,7 +59,31 @@ class NotFittedError(QcnormError):
 
 
 class ReadError(QcnormError):
-    """A file, byte string or pasted text could not be read as measurements."""
+    """A file, byte string or pasted text could not be read as measurements.
+
+    The message is ``problem`` followed by ``hint``, the reader's own words for what to
+    do next. ``hint_code`` is a short stable key of that hint (the table of codes is
+    ``qcnorm.io.hints.HINTS``) and ``hint_args`` the values its wording uses, so that the
+    CLI and the app can say the same thing in the words of their own controls (a flag, a
+    box to tick) without matching phrases of the message. A ReadError made without a
+    hint has ``hint_code``/``hint`` None and ``problem`` equal to the message.
+    """
+
+    def __init__(self, message: str, *, hint_code: str | None = None, hint: str | None = None,
+                 hint_args: dict | None = None) -> None:
+        self.problem = str(message)
+        self.hint_code = hint_code
+        self.hint = hint
+        self.hint_args = dict(hint_args or {})
+        super().__init__(self.problem + (f" {hint}" if hint else ""))
+
+    def __reduce__(self):  # keep the hint fields across processes (batch workers)
+        return _rebuild_read_error, (type(self), self.problem, self.hint_code, self.hint, self.hint_args)
+
+
+def _rebuild_read_error(cls: type, problem: str, hint_code: str | None, hint: str | None,
+                        hint_args: dict) -> ReadError:
+    return cls(problem, hint_code=hint_code, hint=hint, hint_args=hint_args)
 
 
 class ConfigError(QcnormError):
@@ -64,6 +92,14 @@ class ConfigError(QcnormError):
 
 class StoreError(QcnormError):
     """The history database could not be read or written."""
+
+
+class AuthError(QcnormError):
+    """A sign-in or signature was refused: wrong password, locked or disabled account."""
+
+
+class PermissionDenied(AuthError):
+    """The acting account may not do this; the message says who may."""
 
 
 class QcnormWarning(UserWarning):

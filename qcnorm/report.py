@@ -828,6 +828,9 @@ _REFERENCES: dict[str, str] = {
     "percentile": "ISO 22514-2 (percentile method); Clements, J.A. (1989). Process capability calculations "
                   "for non-normal distributions. Quality Progress 22(9), 95–100.",
     "nist": "NIST/SEMATECH e-Handbook of Statistical Methods, sections 6.1.6 and 6.3.2.",
+    "burnham": "Burnham, K.P. & Anderson, D.R. (2002). Model Selection and Multimodel Inference, 2nd ed. "
+               "Springer.",
+    "robson": "Robson, D.S. & Whitlock, J.H. (1964). Estimation of a truncation point. Biometrika 51, 33–39.",
 }
 
 
@@ -867,6 +870,11 @@ def _methods(v: _View) -> list[tuple[str, list[str]]]:
                     "from the normal model on the transformed scale.", ["bissell", "nist"]))
         out.append(("Percentile cross-check: capability from the quantiles X0.135, X50, X99.865 "
                     "of the best-fitting distribution.", ["percentile"]))
+        if (d.get("capability") or {}).get("model_range"):
+            out.append(("Across models: ppm and Ppk under every fitted transform and distribution; the "
+                        "verdict rests on the most pessimistic adequate one (Anderson–Darling and an AIC "
+                        "window of 10); a fitted bound within its end-point margin of a limit may not "
+                        "make the verdict optimistic.", ["burnham", "robson"]))
     return out
 
 
@@ -1107,9 +1115,35 @@ def _sec_capability(w: _Writer, v: _View) -> None:
                 widths=(50, 25, 25), align=("LEFT", "RIGHT", "RIGHT"))
     else:
         w.para("No distribution was fitted, so there is no percentile cross-check.")
+    _sub_model_range(w, cap.get("model_range"))
     w.para(str(cap.get("verdict_text") or ""), bold=True)
     for note in cap.get("notes") or []:
         w.para(str(note), size=8)
+
+
+def _sub_model_range(w: _Writer, mr: Any) -> None:
+    """ppm and Ppk under every fitted model (capability.model_range), as the JSON holds them."""
+    if not isinstance(mr, Mapping) or not mr.get("models"):
+        return
+    w.subheading("Across models")
+    if mr.get("summary_text"):
+        w.para(str(mr["summary_text"]))
+    rows = []
+    for m in mr["models"]:
+        flag = "bound near limit" if m.get("bound_near_limit") else ""
+        rows.append((_text(m.get("model")) + (" (chosen)" if m.get("chosen") else ""),
+                     _text(m.get("route")), fmt(m.get("ppm"), "ppm"), fmt(m.get("ppk"), "index"),
+                     fmt(m.get("delta_aic"), "stat") if m.get("delta_aic") is not None else _DASH,
+                     "yes" if m.get("adequate") else "no", flag,
+                     str(m.get("verdict") or _DASH).replace("_", " ")))
+    w.table(("Model", "Route", "ppm", "Ppk", "ΔAIC", "Adequate", "Flag", "Verdict alone"), rows,
+            widths=(19, 12, 12, 9, 10, 11, 15, 12),
+            align=("LEFT", "LEFT", "RIGHT", "RIGHT", "RIGHT", "LEFT", "LEFT", "LEFT"))
+    w.para(str(mr.get("verdict_basis") or ""), size=8.5)
+    w.para(f"Adequate: Anderson–Darling p ≥ {fmt(mr.get('ad_alpha'), 'stat')} (A² ≤ "
+           f"{fmt(mr.get('a2_critical'), 'stat')} where no p-value is published) and AIC within "
+           f"{fmt(mr.get('delta_aic_window'), 'stat')} of the best (Burnham & Anderson 2002). A fitted bound "
+           "within its Robson & Whitlock (1964) margin of a limit may not make the verdict optimistic.", size=8)
 
 
 def _sec_review(w: _Writer, review: Mapping[str, Any] | None) -> None:
@@ -1117,12 +1151,28 @@ def _sec_review(w: _Writer, review: Mapping[str, Any] | None) -> None:
     if not review:
         w.para("No review decision has been recorded for this analysis.")
         return
+    if review.get("signed"):
+        meaning = str(review.get("meaning") or _SIGNATURE_MEANINGS.get(review["decision"], ""))
+        w.kv_table([
+            ("Decision", _DECISION_LABELS[review["decision"]]),
+            ("Signed by", f"{review.get('signer_full_name') or _DASH} ({review.get('signer_username') or _DASH})"),
+            ("Signed at (UTC)", _utc_text(review.get("signed_at_utc"))),
+            ("Meaning", f"{meaning}: {_MEANING_WORDS.get(meaning, '')}".rstrip(": ")),
+            ("Comment", str(review.get("comment") or _DASH)),
+            ("Analysis SHA-256 signed", str(review.get("analysis_sha256") or _DASH)),
+        ], wide=("Meaning", "Comment", "Analysis SHA-256 signed"))
+        w.para("Electronic signature: the signer re-entered the password at the moment of signing; the "
+               "history database keeps this signature bound to the analysis record whose SHA-256 is printed "
+               "above (python -m qcnorm store verify checks that no record changed since).", size=8)
+        return
     w.kv_table([
         ("Decision", _DECISION_LABELS[review["decision"]]),
         ("Reviewer", str(review.get("reviewer") or _DASH)),
         ("Date", str(review.get("date") or _DASH)),
         ("Comment", str(review.get("comment") or _DASH)),
     ], wide=("Comment",))
+    w.para("Not an electronic signature: this decision was recorded without sign-in (single-user mode); "
+           "the reviewer's name is as typed.", size=8)
 
 
 def _sec_methods(w: _Writer, v: _View) -> None:
@@ -1138,13 +1188,29 @@ def _sec_methods(w: _Writer, v: _View) -> None:
 
 
 _DECISION_LABELS = {"approve": "Approved", "hold": "On hold", "reject": "Rejected"}
+#: the store's signature meanings (qcnorm.store.MEANINGS) and what each one says
+_SIGNATURE_MEANINGS = {"approve": "approved", "hold": "hold", "reject": "rejected"}
+_MEANING_WORDS = {
+    "approved": "release of the lot approved on the evidence in this record",
+    "hold": "the lot is not released until a later signed decision",
+    "rejected": "release of the lot rejected on the evidence in this record",
+}
+_REVIEW_FIELDS = ("decision", "reviewer", "comment", "date", "created_at", "signed", "signer_id",
+                  "signer_username", "signer_full_name", "meaning", "signed_at_utc", "analysis_sha256")
+
+
+def _utc_text(iso: Any) -> str:
+    """'2026-12-03T07:55:12.123456+00:00' -> '2026-12-03 07:55:12 UTC'."""
+    if not iso:
+        return _DASH
+    return str(iso)[:19].replace("T", " ") + " UTC"
 
 
 def _check_review(review: Any) -> dict[str, Any] | None:
     if review is None:
         return None
     if not isinstance(review, Mapping):
-        review = {k: getattr(review, k, None) for k in ("decision", "reviewer", "comment", "date", "created_at")}
+        review = {k: getattr(review, k, None) for k in _REVIEW_FIELDS}
     out = dict(review)
     dec = out.get("decision")
     key = dec.strip().lower() if isinstance(dec, str) else dec
@@ -1196,7 +1262,11 @@ def build_pdf(analysis: Any, *, meta: ReportMeta | None = None, review: Mapping[
         computed from ``analysis.values`` (and subgroups) when not given.
     review : dict, optional
         A review decision: ``decision`` (approve / hold / reject), ``reviewer``,
-        ``comment``, ``date``. A :class:`qcnorm.store.ReviewRecord` works too.
+        ``comment``, ``date``. A :class:`qcnorm.store.ReviewRecord` works too. With
+        ``signed=True`` (an electronic signature in team mode) the signature is printed:
+        ``signer_full_name`` (``signer_username``), ``meaning``, ``signed_at_utc`` (UTC)
+        and the ``analysis_sha256`` it signs; otherwise the section says the decision is
+        not an electronic signature.
     page : {"A4", "Letter"}
         Paper size.
 

@@ -17,7 +17,7 @@ from streamlit.testing.v1 import AppTest
 
 from qcnorm.analysis import analyze
 from qcnorm.data import read_measurements
-from qcnorm.ui.common import fmt
+from qcnorm.ui.common import fmt, fmt_ppm
 
 ROOT = Path(__file__).resolve().parents[1]
 APP = str(ROOT / "app.py")
@@ -93,6 +93,12 @@ def test_demo_loads_and_every_page_shows_the_cores_numbers():
     boxes = [e.value for e in list(at.error) + list(at.warning) + list(at.success) + list(at.info)]
     if not a.in_control and "not meaningful" in a.capability.verdict_text:
         assert sum("not meaningful" in b for b in boxes) == 1
+    # the range across models is drawn from capability.model_range, one row per model
+    mr = a.capability.model_range
+    assert any(h.value == "Across models" for h in at.subheader)
+    mr_tbl = next(t.value for t in at.table if "verdict alone" in t.value.columns)
+    assert list(mr_tbl["model"]) == [m.model + (" (chosen)" if m.chosen else "") for m in mr.models]
+    assert list(mr_tbl["ppm"]) == [fmt_ppm(m.ppm) for m in mr.models]
 
 
 def test_upload_choose_column_specs_override_and_exclude(rng):

@@ -190,6 +190,27 @@ def test_messages_use_cli_flags_not_python_keywords(capsys):
     assert rc == 2 and "--characteristic" in err and "characteristic=" not in err
 
 
+def test_case1_model_range_in_json_and_text(tmp_path):
+    """Issue 10, case 1 through the CLI: gamma(1.5) recorded to 0.1, n = 300, USL 8. The true
+    fraction above 8 is scipy.stats.gamma.sf(8, 1.5) ≈ 1,130 ppm, so the verdict is never
+    'meets', and the JSON and the text show the range across the disagreeing models."""
+    x = np.round(np.random.default_rng(4).gamma(1.5, 1.0, 300), 1)
+    f = tmp_path / "case1.csv"
+    f.write_text("thickness\n" + "\n".join(f"{v:.1f}" for v in x) + "\n")
+    p = run_cli("analyze", str(f), "--column", "thickness", "--usl", "8", "--json")
+    assert p.returncode == 0, p.stderr
+    cap = json.loads(p.stdout)["capability"]
+    mr = cap["model_range"]
+    assert cap["verdict"] != "meets"
+    assert mr["ppm_max"] > 1e6 * stats.gamma.sf(8.0, 1.5) / 3 and mr["ppm_min"] < 100
+    assert isinstance(mr["verdict_basis"], str) and mr["verdict_basis"]
+    assert {m["route"] for m in mr["models"]} == {"transform", "percentile"}
+    assert all(isinstance(m["adequate"], bool) and m["reason"] for m in mr["models"])
+    t = run_cli("analyze", str(f), "--column", "thickness", "--usl", "8")
+    assert t.returncode == 0, t.stderr
+    assert "across models:" in t.stdout and "disagree" in t.stdout
+
+
 def _lambda_sample_csv(tmp_path) -> tuple[Path, np.ndarray]:
     # 25 gamma(1.5) values whose Box–Cox ML λ is 0.275 with a 95 % interval of about −0.04 to 0.63
     # (holds both 0 and 0.5; 0.5 is the nearer): the case of issue 10.

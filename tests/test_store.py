@@ -22,8 +22,8 @@ import pandas as pd
 import pytest
 import sqlalchemy as sa
 
-import qcnorm.store as store_mod
 from conftest import skip_or_fail
+from store_legacy import create_legacy
 from qcnorm.errors import ConfigError, DataError, StoreError
 from qcnorm.store import SCHEMA_VERSION, HistoryStore, data_sha256, default_db_url
 
@@ -126,14 +126,11 @@ def test_reopening_keeps_records_and_does_not_migrate_again(db_url: str):
 
 
 def test_version_1_database_is_migrated(db_url: str):
-    """A database that stopped at schema version 1 (created by the frozen migration 1)."""
+    """A database that stopped at schema version 1 (the frozen pre-Alembic DDL in store_legacy.py)."""
     eng = sa.create_engine(db_url)
     try:
         with eng.begin() as conn:
-            store_mod.schema_version_t.create(conn)
-            store_mod._MIGRATIONS[1](conn)
-            conn.execute(sa.text(
-                "INSERT INTO schema_version (version, applied_at, qcnorm_version) VALUES (1, '2026-01-05T06:00:00+00:00', '0.0.9')"))
+            create_legacy(conn, 1)
             conn.execute(sa.text(
                 "INSERT INTO characteristic (name, revision, units, lsl, usl, target, required_index, created_at, created_by) "
                 "VALUES ('gap', 1, 'mm', 0.2, 0.8, NULL, 1.33, '2026-01-05T06:00:00+00:00', 'old')"))
@@ -149,7 +146,7 @@ def test_version_1_database_is_migrated(db_url: str):
                 {"cid": cid, "v": json.dumps(vals), "h": data_sha256(vals), "a": blob, "ic": False},
             )
         with HistoryStore(db_url) as s:
-            assert s.schema_version == 2
+            assert s.schema_version == SCHEMA_VERSION
             rec = s.list_analyses("gap")[0]
             assert rec.violations == 2  # backfilled from the stored JSON by migration 2
             assert rec.operator == "kim" and rec.values.tolist() == [0.5, 0.51, 0.49]
@@ -353,7 +350,7 @@ def test_review_bad_input(store: HistoryStore, bore: str):
     aid = _save(store, bore)
     with pytest.raises(ConfigError, match=r"'approve', 'hold', 'reject'.*'release'"):
         store.save_review(aid, decision="release", reviewer="Sam")
-    for who in ("", "   ", None):
+    for who in ("", "   ", 7):
         with pytest.raises(ConfigError, match="reviewer"):
             store.save_review(aid, decision="approve", reviewer=who)  # type: ignore[arg-type]
     with pytest.raises(StoreError, match="nothing to review"):
@@ -442,7 +439,9 @@ def test_sqlite_pragmas(tmp_path):
 def test_locked_database_is_a_store_error(tmp_path, monkeypatch):
     import sqlite3
 
-    monkeypatch.setattr(store_mod, "_SQLITE_BUSY_TIMEOUT_S", 0.2)
+    import qcnorm.store._common as store_common
+
+    monkeypatch.setattr(store_common, "SQLITE_BUSY_TIMEOUT_S", 0.2)
     path = tmp_path / "h.sqlite3"
     with HistoryStore(path) as s:
         s.save_characteristic("bore")

@@ -2,7 +2,7 @@
 
 External references: SQLite's own ``PRAGMA integrity_check`` judges the file after a
 writer is killed; data digests are recomputed with ``hashlib.sha256`` (FIPS 180-4) over
-the canonical encoding documented in qcnorm/store.py; the frozen version-1 DDL below is
+the canonical encoding documented in qcnorm/store/__init__.py; the frozen version-1 DDL below is
 the schema qcnorm 0.1 wrote (SQLite dialect), kept as text so later code cannot change it.
 """
 
@@ -41,8 +41,9 @@ def _expected_sha(values: list[float]) -> str:
 
 
 # --------------------------------------------------------------------------- worker processes
-def _concurrent_writer(path: str, worker: int, start: mp.synchronize.Event) -> None:
-    start.wait(30)
+def _concurrent_writer(path: str, worker: int, start: mp.synchronize.Event, ready: mp.Queue) -> None:
+    ready.put(worker)
+    start.wait(60)
     # all four open the same new file at once: schema creation and the characteristic
     # save must each happen exactly once
     with HistoryStore(path) as store:
@@ -79,10 +80,14 @@ def test_four_processes_write_concurrently(tmp_path: Path):
     path = str(tmp_path / "shared.sqlite3")
     ctx = mp.get_context("spawn")
     start = ctx.Event()
-    procs = [ctx.Process(target=_concurrent_writer, args=(path, w, start)) for w in range(WRITERS)]
+    ready = ctx.Queue()
+    procs = [ctx.Process(target=_concurrent_writer, args=(path, w, start, ready)) for w in range(WRITERS)]
     for p in procs:
         p.start()
-    time.sleep(1.0)  # let the interpreters start, then release them together
+    # wait until every interpreter has started and imported qcnorm (slow on a busy machine),
+    # then release them together
+    for _ in range(WRITERS):
+        ready.get(timeout=120)
     start.set()
     for p in procs:
         p.join(120)
@@ -102,9 +107,16 @@ def test_four_processes_write_concurrently(tmp_path: Path):
                 assert rec.values.tolist() == vals
                 assert rec.data_sha256 == _expected_sha(vals)
         assert all(store.verify(r.id) for r in records)
-        # writers really interleaved (ids of one writer are not one solid block)
-        ids_w0 = sorted(r.id for r in records if r.operator == "writer 0")
-        assert ids_w0[-1] - ids_w0[0] + 1 > PER_WRITER
+        # one unbroken record chain: every save sealed in commit order, no gaps, no reuse
+        check = store.verify_chain()
+        assert check.ok, check.detail
+        assert check.checked == check.head_seq >= 2 * WRITERS * PER_WRITER  # each save: record + audit event
+        # writers really interleaved (the ids of some writer are not one solid block)
+        spans = []
+        for w in range(WRITERS):
+            ids_w = sorted(r.id for r in records if r.operator == f"writer {w}")
+            spans.append(ids_w[-1] - ids_w[0] + 1)
+        assert max(spans) > PER_WRITER, spans
     con = sqlite3.connect(path)
     try:
         assert con.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
@@ -144,6 +156,8 @@ def test_writer_killed_mid_transaction(tmp_path: Path):
         # the dead writer's lock is gone: a new write goes through at once
         new = store.save_analysis(CHAR, analysis={}, values=[1.0], qcnorm_version="0.1.0")
         assert store.verify(new)
+        check = store.verify_chain()  # the killed writer left no half-sealed record
+        assert check.ok, check.detail
 
 
 # Schema version 1 exactly as qcnorm 0.1 created it on SQLite (do not edit).
@@ -211,7 +225,7 @@ def test_previous_schema_version_opens_and_is_migrated(tmp_path: Path):
     path = tmp_path / "v1.sqlite3"
     expected = _write_v1_file(path)
     with HistoryStore(path) as store:
-        assert store.schema_version == SCHEMA_VERSION == 2
+        assert store.schema_version == SCHEMA_VERSION == 3
         rec = store.get_analysis(1)
         assert rec.values.tolist() == expected["values"] and rec.subgroups == expected["labels"]
         assert rec.data_sha256 == expected["sha"] and store.verify(1)
@@ -228,35 +242,39 @@ def test_previous_schema_version_opens_and_is_migrated(tmp_path: Path):
         indexes = {r[0] for r in con.execute("SELECT name FROM sqlite_master WHERE type = 'index'")}
     finally:
         con.close()
-    assert rows == [(1,), (2,)]
+    assert rows == [(1,), (2,), (3,)]
     assert {"ix_analysis_characteristic", "ix_review_analysis"} <= indexes
 
 
 def test_failed_migration_leaves_previous_version(tmp_path: Path, monkeypatch):
-    """Each migration is one transaction: a failure part-way leaves version 1 intact."""
-    import qcnorm.store as store_mod
+    """Each schema step is one transaction: a failure part-way leaves version 1 intact."""
+    import qcnorm.store.migrate as migrate_mod
 
     path = tmp_path / "v1.sqlite3"
     _write_v1_file(path)
-    real = store_mod._MIGRATIONS[2]
+    real = migrate_mod._run_step
 
-    def broken(conn):
-        real(conn)
-        raise store_mod.sa.exc.OperationalError("simulated", {}, Exception("disk I/O error"))
+    def broken(conn, current, version):
+        real(conn, current, version)
+        if version == 2:
+            raise migrate_mod.sa.exc.OperationalError("simulated", {}, Exception("disk I/O error"))
 
-    monkeypatch.setitem(store_mod._MIGRATIONS, 2, broken)
+    monkeypatch.setattr(migrate_mod, "_run_step", broken)
     with pytest.raises(StoreError, match="upgrade the schema to version 2"):
         HistoryStore(path)
     con = sqlite3.connect(path)
     try:
         assert con.execute("SELECT max(version) FROM schema_version").fetchone()[0] == 1
         cols = {r[1] for r in con.execute("PRAGMA table_info(analysis)")}
+        tables = {r[0] for r in con.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
     finally:
         con.close()
     assert "n_violations" not in cols  # the ALTER TABLE was rolled back with the rest
-    monkeypatch.setitem(store_mod._MIGRATIONS, 2, real)
+    assert "alembic_version" not in tables  # so was the adoption stamp
+    monkeypatch.setattr(migrate_mod, "_run_step", real)
     with HistoryStore(path) as store:
-        assert store.schema_version == 2 and store.get_analysis(1).violations == 2
+        assert store.schema_version == SCHEMA_VERSION and store.get_analysis(1).violations == 2
+        assert store.verify_chain().ok
 
 
 @pytest.mark.parametrize(

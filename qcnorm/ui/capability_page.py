@@ -1,4 +1,5 @@
-"""4 · Capability: indices with intervals, ppm, the percentile cross-check, the verdict.
+"""4 · Capability: indices with intervals, ppm, the percentile cross-check, the range across
+models, the verdict.
 
 All figures are fields of ``Analysis.capability`` and ``Analysis.percentile``; the
 plain-words paragraph only puts them into sentences.
@@ -49,6 +50,35 @@ def ppm_table(cap, perc) -> pd.DataFrame:
                         columns=["parts per million", "below LSL", "above USL", "total"])
 
 
+def model_range_table(mr) -> pd.DataFrame:
+    """The model range as shown: one row per model, the figures as the result holds them."""
+    rows = []
+    for m in mr.models:
+        rows.append((
+            m.model + (" (chosen)" if m.chosen else ""),
+            "transform" if m.route == "transform" else "percentile",
+            _ppm(m.ppm), _fmt(m.ppk, 3), _fmt(m.ppk_lower_bound, 3),
+            "–" if m.delta_aic is None else f"{m.delta_aic:.1f}",
+            "yes" if m.adequate else "no",
+            "bound near limit" if m.bound_near_limit else "",
+            m.verdict.replace("_", " "),
+            m.reason,
+        ))
+    return pd.DataFrame(rows, columns=["model", "route", "ppm", "Ppk", "Ppk lower bound", "ΔAIC",
+                                       "adequate", "flag", "verdict alone", "why"])
+
+
+def model_range_words(cap) -> str | None:
+    """The disagreement between models in plain words (None when there is no range)."""
+    mr = cap.model_range
+    if mr is None or not mr.summary_text:
+        return None
+    words = mr.summary_text
+    if mr.model_dependent or cap.route_verdict != cap.verdict:
+        words += " " + mr.verdict_basis
+    return words
+
+
 def plain_words(a) -> str:
     """One paragraph from the Analysis' own numbers and verdict."""
     cap, ch = a.capability, a.chart
@@ -97,8 +127,9 @@ def render() -> None:
     words, box = VERDICT_WORDS.get(cap.verdict, (cap.verdict, st.info))
     box(f"**Verdict:** {cap.verdict_text}")
     st.markdown(plain_words(a))
+    mr_words = model_range_words(cap)  # the verdict text above already carries it when it changed the verdict
 
-    u = f" {a.units}" if a.units else ""
+    u = f" {common.md(a.units)}" if a.units else ""  # typed units: text, not markup
     c1, c2, c3, c4, c5 = st.columns(5)
     c1.metric("Cpk", _fmt(cap.cpk, 3), help=f"{cap.confidence:.0%} interval {_ci(cap.cpk_ci)}")
     c2.metric("Ppk", _fmt(cap.ppk, 3), help=f"{cap.confidence:.0%} interval {_ci(cap.ppk_ci)}")
@@ -111,7 +142,8 @@ def render() -> None:
     with left:
         st.subheader("Indices")
         st.table(indices_table(cap), hide_index=True)
-        lim = common.fmt_limit
+        def lim(v, units):  # typed units: text, not markup
+            return common.fmt_limit(v, common.md(units) if units else units)
         st.caption(f"Specification: LSL {lim(cap.lsl, a.units)}, USL {lim(cap.usl, a.units)}, "
                    f"target {lim(cap.target, a.units)}. "
                    "Intervals: chi-square for Cp/Pp, Bissell (1990) for Cpk/Ppk.")
@@ -126,6 +158,15 @@ def render() -> None:
                 f"Pp {_fmt(perc.pp, 3)}, Ppk {_fmt(perc.ppk, 3)}; "
                 f"0.135 % point {_fmt(perc.x_low)}{u}, median {_fmt(perc.x_median)}{u}, "
                 f"99.865 % point {_fmt(perc.x_high)}{u}.")
+    if cap.model_range is not None:
+        st.subheader("Across models")
+        st.markdown(mr_words or "Only the chosen transform gives figures at these limits.")
+        st.table(model_range_table(cap.model_range), hide_index=True)
+        st.caption(
+            f"Adequate: Anderson–Darling p ≥ {cap.model_range.ad_alpha:g} (A² ≤ {cap.model_range.a2_critical:g} "
+            f"where no p-value is published) and AIC within {cap.model_range.delta_aic_window:g} of the best "
+            "(Burnham & Anderson 2002). The verdict uses the most pessimistic adequate model; a fitted bound "
+            "within its Robson & Whitlock (1964) margin of a limit may not make it optimistic.")
     if a.distributions is not None:
         with st.expander("Distributions fitted for the cross-check"):
             st.dataframe(a.distributions.summary(), hide_index=True, width="stretch")
@@ -133,4 +174,4 @@ def render() -> None:
     if notes:
         st.subheader("Points to note")
         for w in notes:
-            st.markdown(f"- {w}")
+            st.markdown(f"- {common.md(w)}")
