@@ -26,7 +26,6 @@ LENGTH_REASON = "Length:"
 #: Modules over MAX_MODULE_LINES that are known and being split (issue 11). Shrinks only.
 KNOWN_LARGE_MODULES = frozenset({
     "qcnorm/report.py",
-    "qcnorm/control.py",
     "qcnorm/distributions.py",
     "qcnorm/capability.py",
     "qcnorm/analysis.py",
@@ -37,7 +36,6 @@ KNOWN_LARGE_MODULES = frozenset({
 KNOWN_LONG_FUNCTIONS = frozenset({
     "qcnorm/analysis.py::analyze",
     "qcnorm/capability.py::capability",
-    "qcnorm/control.py::control_chart",
     "qcnorm/analysis.py::Analysis.to_dict",
     "qcnorm/modelrange.py::model_range",
     "qcnorm/batch.py::run_batch",
