@@ -28,7 +28,6 @@ KNOWN_LARGE_MODULES = frozenset({
     "qcnorm/transforms.py",
     "qcnorm/report.py",
     "qcnorm/control.py",
-    "qcnorm/distributions.py",
     "qcnorm/analysis.py",
 })
 
