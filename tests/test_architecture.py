@@ -28,15 +28,12 @@ KNOWN_LARGE_MODULES = frozenset({
     "qcnorm/transforms.py",
     "qcnorm/report.py",
     "qcnorm/control.py",
-    "qcnorm/analysis.py",
 })
 
 #: Functions over MAX_FUNCTION_LINES (docstring not counted) without a reason, as they were
 #: when the check was added. Shrinks only: new code gets no entry.
 KNOWN_LONG_FUNCTIONS = frozenset({
-    "qcnorm/analysis.py::analyze",
     "qcnorm/control.py::control_chart",
-    "qcnorm/analysis.py::Analysis.to_dict",
     "qcnorm/modelrange.py::model_range",
 })
 
