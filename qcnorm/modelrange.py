@@ -320,12 +320,20 @@ def model_range(
     -------
     ModelRange
     """
-    from .distributions import percentile_capability
+    lsl, usl = cap.lsl, cap.usl
+    rows = _transform_rows(xs, cap, transform, candidates, chosen_ad_p, chosen_ad_statistic)
+    if distributions is not None:
+        rows.extend(_percentile_rows(xs, lsl, usl, cap, distributions, percentile))
+    return _decide(_adequacy(rows, coarse), cap)
 
+
+def _transform_rows(xs, cap: Capability, transform: Any, candidates: Any,
+                    chosen_ad_p: float | None, chosen_ad_statistic: float | None) -> list[dict[str, Any]]:
+    """One row per fitted transform candidate (the chosen one reuses ``cap``); the chosen
+    transform first when it is not among the candidates (a frozen baseline)."""
     lsl, usl = cap.lsl, cap.usl
     n, req, conf = cap.n, cap.required_index, cap.confidence
     rows: list[dict[str, Any]] = []
-
     # transform route -------------------------------------------------------------------
     seen_chosen = False
     for c in candidates:
@@ -357,23 +365,34 @@ def model_range(
             "ppm_below": cap.ppm_overall_below, "ppm_above": cap.ppm_overall_above,
             "verdict": cap.route_verdict or cap.verdict,
         })
+    return rows
 
+
+def _percentile_rows(xs, lsl, usl, cap: Capability, distributions: Any, percentile: Any) -> list[dict[str, Any]]:
+    """One row per fitted distribution (percentile route); ``percentile`` is reused for the best."""
+    from .distributions import percentile_capability
+
+    n, req, conf = cap.n, cap.required_index, cap.confidence
+    rows: list[dict[str, Any]] = []
     # percentile route ------------------------------------------------------------------
-    if distributions is not None:
-        for f in distributions.fits:
-            pc = percentile if (percentile is not None and f is distributions.best) else \
-                percentile_capability(f, lsl=lsl, usl=usl)
-            sup = distribution_support(f.name, f.params)
-            flagged, fwords = _flags(sup, lsl, usl, xs)
-            lb = _bissell_lower(pc.ppk, n, conf)
-            rows.append({
-                "model": f.name, "route": "percentile", "chosen": False, "aic": f.aic,
-                "ad_statistic": f.ad_statistic, "ad_p_value": f.ad_p_value, "flagged": flagged,
-                "fwords": fwords, "lower_side": pc.lower_side, "upper_side": pc.upper_side,
-                "ppk": pc.ppk, "ppk_lower_bound": lb, "ppm": pc.ppm_expected, "ppm_below": pc.ppm_below,
-                "ppm_above": pc.ppm_above, "verdict": _verdict(pc.ppk, lb, req),
-            })
+    for f in distributions.fits:
+        pc = percentile if (percentile is not None and f is distributions.best) else \
+            percentile_capability(f, lsl=lsl, usl=usl)
+        sup = distribution_support(f.name, f.params)
+        flagged, fwords = _flags(sup, lsl, usl, xs)
+        lb = _bissell_lower(pc.ppk, n, conf)
+        rows.append({
+            "model": f.name, "route": "percentile", "chosen": False, "aic": f.aic,
+            "ad_statistic": f.ad_statistic, "ad_p_value": f.ad_p_value, "flagged": flagged,
+            "fwords": fwords, "lower_side": pc.lower_side, "upper_side": pc.upper_side,
+            "ppk": pc.ppk, "ppk_lower_bound": lb, "ppm": pc.ppm_expected, "ppm_below": pc.ppm_below,
+            "ppm_above": pc.ppm_above, "verdict": _verdict(pc.ppk, lb, req),
+        })
+    return rows
 
+
+def _adequacy(rows: list[dict[str, Any]], coarse: bool) -> list[ModelFigures]:
+    """Each row judged adequate or not (Anderson–Darling and the AIC window), as ModelFigures."""
     # adequacy --------------------------------------------------------------------------
     aics = [r["aic"] for r in rows if r["aic"] is not None and math.isfinite(r["aic"])]
     best_aic = min(aics) if aics else None
@@ -407,7 +426,7 @@ def model_range(
             lower_side=r["lower_side"], upper_side=r["upper_side"], adequate=adequate,
             bound_near_limit=bool(r["flagged"]), verdict=r["verdict"], reason=reason,
         ))
-    return _decide(figs, cap)
+    return figs
 
 
 def _transform_figures(t, xs, lsl, usl, row, n, req, conf) -> dict[str, Any]:
