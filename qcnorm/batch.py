@@ -13,7 +13,6 @@ import os
 import sys
 import time
 from collections.abc import Callable, Mapping
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
@@ -94,6 +93,7 @@ class BatchResult(Result):
     source: str
     seconds: float
     jobs: int
+    engine: str = "local"
 
     @property
     def n_failed(self) -> int:
@@ -167,8 +167,37 @@ def _key(name: str) -> str:
     return "".join(str(name).lower().split())
 
 
+def _analyse_task(task: tuple) -> list[tuple[int, BatchRow]]:
+    """Worker: analyse a task's characteristics; never raises for bad data."""
+    items, opts, pdf_dir = task
+    return [(idx, _analyse_item(name, item, spec, opts, pdf_dir)) for idx, name, item, spec in items]
+
+
+def _task_failed(task: tuple, exc: BaseException) -> list[tuple[int, BatchRow]]:
+    """Rows for a task that could not be run at all (e.g. its worker kept dying)."""
+    items, _, _ = task
+    msg = (f"not analysed: the worker running it failed ({type(exc).__name__}: {exc}); "
+           "run the batch again or with --engine local")
+    return [(idx, BatchRow(characteristic=name, error=msg,
+                           lsl=spec.lsl if spec else None, usl=spec.usl if spec else None))
+            for idx, name, _item, spec in items]
+
+
+def _analyse_item(name: str, item: Any, spec: SpecRow | None, opts: dict, pdf_dir: str | None) -> BatchRow:
+    """Read (when needed) and analyse one characteristic."""
+    from .batch_input import materialize
+
+    try:
+        ready = materialize(item)
+    except QcnormError as exc:
+        return BatchRow(characteristic=name, error=str(exc),
+                        lsl=spec.lsl if spec else None, usl=spec.usl if spec else None)
+    units = ready.units or (spec.units if spec else None)
+    return _analyse_one((name, units, ready.values, ready.subgroups, spec, opts, pdf_dir))
+
+
 def _analyse_one(task: tuple) -> BatchRow:
-    """Worker: analyse one characteristic's values; never raises for bad data."""
+    """Analyse one characteristic's values; never raises for bad data."""
     name, units, values, subgroups, spec, opts, pdf_dir = task
     from .analysis import analyze
 
@@ -249,34 +278,65 @@ def run_batch(
     round_lambda: bool = True,
     include_censored: bool = False,
     zeros: str = "censor",
+    engine: str = "auto",
+    scheduler: str | None = None,
+    read_mode: str = "auto",
+    chunk_rows: int = 200_000,
+    chunk_cells: int = 5_000_000,
+    task_size: int | None = None,
 ) -> BatchResult:
-    """Analyse every characteristic of a wide or long file.
+    """Analyse every characteristic of a wide or long file, or of a folder of files.
 
     Parameters
     ----------
     source : path, bytes, file-like or DataFrame
-        A wide file (one column per characteristic) or a long file (characteristic
-        and value columns).
+        A wide file (one column per characteristic), a long file (characteristic
+        and value columns), or a folder of CSV files (a characteristic's rows from
+        every file are analysed together, in file-name order).
     specs : mapping or path to a specs CSV, optional
         Spec limits per characteristic (see :func:`read_specs`); characteristics
         without specs are analysed for shape and stability only.
     subgroup : str, optional
         Column of subgroup labels shared by all characteristics.
     jobs : int
-        Worker processes (1 = in this process; 0 = one per core).
+        Workers (1 = in this process; 0 = one per core). With a Dask scheduler the
+        cluster's own workers are used.
     pdf_dir : path, optional
         Write one PDF summary per characteristic into this folder.
     progress : callable(done, total) or True for a bar on stderr.
     transform, chart, rules, round_lambda, zeros : as for :func:`qcnorm.analyze`.
     include_censored : as for :func:`qcnorm.read_measurements`.
+    engine : {"auto", "local", "pool", "dask"}
+        Where the work runs (see :mod:`qcnorm.engines`). "auto": Dask when a
+        scheduler address is given, else the process pool (``jobs > 1``) or this process.
+    scheduler : str, optional
+        Address of a Dask scheduler (``tcp://host:8786``); default ``QCNORM_SCHEDULER``.
+    read_mode : {"auto", "whole", "chunked"}
+        "whole" reads the file at once with the careful reader; "chunked" reads a
+        delimited text file in pieces (see :mod:`qcnorm.batch_input`); "auto" picks
+        by file size (chunked from :data:`qcnorm.batch_input.SMALL_FILE_BYTES` up).
+    chunk_rows : int
+        Rows per chunk when a long file or a folder is read in chunks.
+    chunk_cells : int
+        Cells per group of columns when a wide file is read in chunks.
+    task_size : int, optional
+        Characteristics per task sent to a worker (default: enough to give each
+        worker about eight tasks, at most 64 per task).
     """
-    from .data import read_all, split_units
+    from .batch_input import plan_items
+    from .data import split_units
+    from .engines import choose_engine, run_tasks, scheduler_address
 
     t0 = time.perf_counter()
     if jobs is None or jobs == 0:
         jobs = os.cpu_count() or 1
     if not isinstance(jobs, int) or jobs < 0:
         raise ConfigError(f"jobs must be a whole number ≥ 0 (0 = one per core). Got {jobs!r} instead.")
+    if task_size is not None and (not isinstance(task_size, int) or task_size < 1):
+        raise ConfigError(f"task_size must be a whole number ≥ 1. Got {task_size!r} instead.")
+    for nm, v in (("chunk_rows", chunk_rows), ("chunk_cells", chunk_cells)):
+        if isinstance(v, bool) or not isinstance(v, int) or v < 1:
+            raise ConfigError(f"{nm} must be a whole number ≥ 1. Got {v!r} instead.")
     if specs is not None and not isinstance(specs, Mapping):
         specs = read_specs(specs)
     specs = {_key(k): v for k, v in (specs or {}).items()}
@@ -286,39 +346,55 @@ def run_batch(
         progress = _progress_bar(sys.stderr)
     elif progress is False:
         progress = None
+    address = scheduler_address(scheduler)
 
-    found = read_all(source, subgroup=subgroup, sheet=sheet, include_censored=include_censored)
-    opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda, "zeros": zeros}
-    tasks, rows = [], []
-    for header, m in found.items():
-        name = split_units(header)[0] or header  # "Ra [µm]" -> "Ra": the name specs use
-        spec = specs.get(_key(name)) or specs.get(_key(header))
-        if isinstance(m, QcnormError):
-            rows.append(BatchRow(characteristic=name, error=str(m),
-                                 lsl=spec.lsl if spec else None, usl=spec.usl if spec else None))
-            continue
-        units = m.units or (spec.units if spec else None)
-        tasks.append((name, units, m.values, m.subgroups, spec, opts,
-                      None if pdf_dir is None else str(pdf_dir)))
-    total = len(tasks) + len(rows)
-    done = len(rows)
-    if progress:
-        progress(done, total)
-    if jobs <= 1 or len(tasks) <= 1:
-        for t in tasks:
-            rows.append(_analyse_one(t))
-            done += 1
+    plan = plan_items(source, subgroup=subgroup, sheet=sheet, include_censored=include_censored,
+                      read_mode=read_mode, chunk_rows=chunk_rows, chunk_cells=chunk_cells)
+    try:
+        total = plan.total
+        size = task_size or max(1, min(64, math.ceil(total / max(1, jobs * 8))))
+        chosen = choose_engine(engine, address, jobs, math.ceil(total / size) if total else 0)
+        if task_size is None:  # in this process, one characteristic per task: progress as each is done
+            task_size = 1 if chosen == "local" else size
+        opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda,
+                "zeros": zeros}
+        pdf = None if pdf_dir is None else str(pdf_dir)
+        order: dict[int, BatchRow] = {}
+
+        def tasks():
+            task: list[tuple] = []
+            for idx, (header, item) in enumerate(plan.items):
+                name = split_units(header)[0] or header  # "Ra [µm]" -> "Ra": the name specs use
+                spec = specs.get(_key(name)) or specs.get(_key(header))
+                if isinstance(item, QcnormError):
+                    order[idx] = BatchRow(characteristic=name, error=str(item),
+                                          lsl=spec.lsl if spec else None, usl=spec.usl if spec else None)
+                    continue
+                task.append((idx, name, item, spec))
+                if len(task) >= task_size:
+                    yield (tuple(task), opts, pdf)
+                    task = []
+            if task:
+                yield (tuple(task), opts, pdf)
+
+        if chosen == "pool":
+            from . import analysis  # noqa: F401 - imported once here, inherited by forked workers
+        done = 0
+        if progress:
+            progress(0, total)
+        for task, rows in run_tasks(_analyse_task, tasks(), engine=chosen, jobs=jobs, scheduler=address,
+                                    on_fail=_task_failed):
+            for idx, row in rows:
+                order[idx] = row
+            done = len(order)
             if progress:
                 progress(done, total)
-    else:
-        chunk = max(1, min(32, len(tasks) // (jobs * 8) or 1))
-        with ProcessPoolExecutor(max_workers=jobs) as ex:
-            for row in ex.map(_analyse_one, tasks, chunksize=chunk):
-                rows.append(row)
-                done += 1
-                if progress and (done % chunk == 0 or done == total):
-                    progress(done, total)
+        if progress and done < total:
+            progress(len(order), total)
+    finally:
+        plan.close()
+    rows = [order[i] for i in sorted(order)]
     ranked = sorted(rows, key=lambda r: r.sort_key)
     ranked = tuple(replace(r, rank=i + 1) for i, r in enumerate(ranked))
     return BatchResult(rows=ranked, source=str(getattr(source, "name", source))[:200],
-                       seconds=time.perf_counter() - t0, jobs=jobs)
+                       seconds=time.perf_counter() - t0, jobs=jobs, engine=chosen)

@@ -80,8 +80,9 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--date", metavar="YYYY-MM-DD",
                    help="ISO date (or date-time, 2026-11-25T22:00) of the shift, printed in the PDF header "
                         "and used as the PDF's creation date (with --pdf)")
-    b = sub.add_parser("batch", help="analyse every characteristic of a wide or long file")
-    b.add_argument("file", help="CSV/TSV/XLSX file with one column per characteristic, or a long file")
+    b = sub.add_parser("batch", help="analyse every characteristic of a wide or long file, or a folder of files")
+    b.add_argument("file", help="CSV/TSV/XLSX file with one column per characteristic, a long file, "
+                                "or a folder of CSV files (a characteristic's rows from all files together)")
     b.add_argument("--specs", metavar="SPECS.csv",
                    help="spec limits: columns characteristic, lsl, usl, target, required_index, units")
     b.add_argument("--subgroup", help="column holding subgroup labels (shared by all characteristics)")
@@ -89,6 +90,15 @@ def build_parser() -> argparse.ArgumentParser:
     b.add_argument("--out", metavar="summary.csv|.xlsx", help="write the ranked summary table")
     b.add_argument("--pdf-dir", metavar="DIR", help="write one PDF summary per characteristic")
     b.add_argument("--jobs", type=int, default=0, help="worker processes (0 = one per core, the default)")
+    b.add_argument("--engine", default="auto", choices=["auto", "local", "pool", "dask"],
+                   help="where the work runs: local (this process), pool (processes on this machine), dask "
+                        "(the --scheduler cluster, or a cluster on this machine); auto: dask when a scheduler "
+                        "is given, else pool")
+    b.add_argument("--scheduler", metavar="ADDRESS",
+                   help="Dask scheduler address, e.g. tcp://10.0.0.5:8786 (default: $QCNORM_SCHEDULER)")
+    b.add_argument("--read", dest="read_mode", default="auto", choices=["auto", "whole", "chunked"],
+                   help="read the file whole, or in chunks (large CSV files and folders); auto picks by size")
+    b.add_argument("--chunk-rows", type=int, default=200_000, help="rows per chunk when reading in chunks")
     b.add_argument("--transform", default="auto", choices=["auto", "none", "log", "boxcox", "yeojohnson", "johnson"])
     b.add_argument("--chart", default="auto", choices=["auto", "individuals", "xbar_r", "xbar_s"])
     b.add_argument("--rules", default=DEFAULT_RULES, choices=list(RULE_SETS),
@@ -110,12 +120,15 @@ def _cmd_batch(args: argparse.Namespace) -> int:
 
     if not os.path.exists(args.file):
         raise QcnormError(f"File not found: {args.file}. Check the path and try again.")
+    if args.chunk_rows < 1:
+        raise QcnormError(f"--chunk-rows must be a whole number ≥ 1. Got {args.chunk_rows} instead.")
     if args.out and not args.out.lower().endswith((".csv", ".xlsx")):
         raise QcnormError(f"--out must end in .csv or .xlsx. Got {args.out!r} instead.")
     res = run_batch(
         args.file, specs=args.specs, subgroup=args.subgroup, sheet=args.sheet, jobs=args.jobs,
         pdf_dir=args.pdf_dir, progress=sys.stderr.isatty(), transform=args.transform,
         chart=args.chart, rules=args.rules, round_lambda=not args.exact_lambda, zeros=args.zeros,
+        engine=args.engine, scheduler=args.scheduler, read_mode=args.read_mode, chunk_rows=args.chunk_rows,
     )
     df = res.frame()
     if args.out:
@@ -139,7 +152,7 @@ def _cmd_batch(args: argparse.Namespace) -> int:
         if r.error:
             sys.stdout.write(f"! {r.characteristic}: {r.error}\n")
     sys.stdout.write(
-        f"{len(res.rows)} characteristic(s) in {res.seconds:.1f} s with {res.jobs} worker(s); "
+        f"{len(res.rows)} characteristic(s) in {res.seconds:.1f} s with {res.jobs} worker(s) ({res.engine}); "
         f"{res.n_failed} could not be analysed. Ranked worst first by the lower confidence bound of "
         "min(Cpk, Ppk).\n"
     )
