@@ -24,6 +24,8 @@ from typing import Any
 import numpy as np
 import plotly.graph_objects as go
 
+from ._markup import html_text
+
 __all__ = [
     "PALETTE", "Bins", "display_name", "histogram_bins", "histogram_figure", "probability_figure",
     "control_figure", "signal_labels", "dispersion_figure", "capability_figure", "ranking_figure",
@@ -122,16 +124,17 @@ def _layout(fig: go.Figure, title: str, xtitle: str, ytitle: str, height: int = 
 
 
 def display_name(analysis: Any) -> str:
-    """The characteristic's name without the units its header carried ("Ra [µm]" -> "Ra")."""
+    """The characteristic's name without the units its header carried ("Ra [µm]" -> "Ra"),
+    HTML-escaped for a plotly title or label (plotly reads <b>, <br>, <a href> …)."""
     name = str(getattr(analysis, "characteristic", None) or "value")
     for sep in (" [", " ("):
         if sep in name:
             name = name.split(sep, 1)[0]
-    return name.strip() or "value"
+    return html_text(name.strip() or "value")
 
 
 def _units(units: str | None) -> str:
-    return f" [{units}]" if units else ""
+    return f" [{html_text(units)}]" if units else ""
 
 
 def _finite(v: Any) -> bool:
@@ -279,9 +282,10 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
     excl = np.asarray(ch.excluded_mask, dtype=bool)
     rules = _rules_per_point(ch.violations, n)
     flagged = np.array([bool(r) for r in rules], dtype=bool) & ~excl
-    labels = np.asarray(ch.labels).astype(str)
-    extra = [""] * n if hover is None else [str(h) for h in hover]
-    reasons = {e.index: e.reason for e in ch.excluded}
+    # labels, times and reasons come from the file or were typed: shown as text, never as markup
+    labels = np.array([html_text(x) for x in np.asarray(ch.labels).astype(str)], dtype=object)
+    extra = [""] * n if hover is None else [html_text(h) for h in hover]
+    reasons = {e.index: html_text(e.reason) for e in ch.excluded}
     text = [
         f"point {i + 1} · {labels[i]}{(' · ' + extra[i]) if extra[i] else ''}"
         + (f"<br>rules: {', '.join(rules[i])}" if rules[i] else "")
@@ -518,7 +522,7 @@ def ppk_overview_figure(rows: Any, *, height: int | None = None) -> go.Figure:
     say why in a note at the left. Nothing is computed here: every x is a field of a row.
     """
     rows = list(rows)
-    names = [str(r.characteristic) for r in rows]
+    names = [html_text(r.characteristic) for r in rows]  # a category name is drawn as a label
     fig = go.Figure()
     # an invisible anchor at each row's required index keeps every characteristic on the
     # axis, those without a Ppk too (the required index is inside the x range anyway)
@@ -536,7 +540,7 @@ def ppk_overview_figure(rows: Any, *, height: int | None = None) -> go.Figure:
             lo, hi = getattr(r, "ppk_ci_low", None), getattr(r, "ppk_ci_high", None)
             if _finite(lo) and _finite(hi):
                 ci_x += [lo, hi, None]
-                ci_y += [str(r.characteristic), str(r.characteristic), None]
+                ci_y += [html_text(r.characteristic), html_text(r.characteristic), None]
         if ci_x:
             fig.add_trace(go.Scatter(
                 x=ci_x, y=ci_y, mode="lines", name=f"{label}: two-sided 95 % interval", legendgroup=verdict,
@@ -547,14 +551,14 @@ def ppk_overview_figure(rows: Any, *, height: int | None = None) -> go.Figure:
         for r in mine:
             if _finite(r.ppk_lower):
                 seg_x += [r.ppk_lower, r.ppk, None]
-                seg_y += [str(r.characteristic), str(r.characteristic), None]
+                seg_y += [html_text(r.characteristic), html_text(r.characteristic), None]
         if seg_x:
             fig.add_trace(go.Scatter(
                 x=seg_x, y=seg_y, mode="lines", name=f"{label}: lower 95 % bound", legendgroup=verdict,
                 showlegend=False, line=dict(color=color, width=3), hoverinfo="skip",
             ))
         fig.add_trace(go.Scatter(
-            x=[r.ppk for r in mine], y=[str(r.characteristic) for r in mine], mode="markers",
+            x=[r.ppk for r in mine], y=[html_text(r.characteristic) for r in mine], mode="markers",
             name=label, legendgroup=verdict,
             marker=dict(color=color, size=11, line=dict(color=color, width=2),
                         symbol=["circle" if r.in_control else "circle-open" for r in mine]),
@@ -579,7 +583,7 @@ def ppk_overview_figure(rows: Any, *, height: int | None = None) -> go.Figure:
         if _finite(r.ppk):
             continue
         why = "not analysed — see the table" if r.error else "no Ppk (no spec limits)"
-        fig.add_annotation(x=0.0, xref="paper", xanchor="left", y=str(r.characteristic), yref="y",
+        fig.add_annotation(x=0.0, xref="paper", xanchor="left", y=html_text(r.characteristic), yref="y",
                            text=why, showarrow=False, font=dict(size=11, color=PALETTE["excluded"]))
     if height is None:
         height = 130 + 30 * max(len(rows), 1)

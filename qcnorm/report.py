@@ -1151,12 +1151,28 @@ def _sec_review(w: _Writer, review: Mapping[str, Any] | None) -> None:
     if not review:
         w.para("No review decision has been recorded for this analysis.")
         return
+    if review.get("signed"):
+        meaning = str(review.get("meaning") or _SIGNATURE_MEANINGS.get(review["decision"], ""))
+        w.kv_table([
+            ("Decision", _DECISION_LABELS[review["decision"]]),
+            ("Signed by", f"{review.get('signer_full_name') or _DASH} ({review.get('signer_username') or _DASH})"),
+            ("Signed at (UTC)", _utc_text(review.get("signed_at_utc"))),
+            ("Meaning", f"{meaning}: {_MEANING_WORDS.get(meaning, '')}".rstrip(": ")),
+            ("Comment", str(review.get("comment") or _DASH)),
+            ("Analysis SHA-256 signed", str(review.get("analysis_sha256") or _DASH)),
+        ], wide=("Meaning", "Comment", "Analysis SHA-256 signed"))
+        w.para("Electronic signature: the signer re-entered the password at the moment of signing; the "
+               "history database keeps this signature bound to the analysis record whose SHA-256 is printed "
+               "above (python -m qcnorm store verify checks that no record changed since).", size=8)
+        return
     w.kv_table([
         ("Decision", _DECISION_LABELS[review["decision"]]),
         ("Reviewer", str(review.get("reviewer") or _DASH)),
         ("Date", str(review.get("date") or _DASH)),
         ("Comment", str(review.get("comment") or _DASH)),
     ], wide=("Comment",))
+    w.para("Not an electronic signature: this decision was recorded without sign-in (single-user mode); "
+           "the reviewer's name is as typed.", size=8)
 
 
 def _sec_methods(w: _Writer, v: _View) -> None:
@@ -1172,13 +1188,29 @@ def _sec_methods(w: _Writer, v: _View) -> None:
 
 
 _DECISION_LABELS = {"approve": "Approved", "hold": "On hold", "reject": "Rejected"}
+#: the store's signature meanings (qcnorm.store.MEANINGS) and what each one says
+_SIGNATURE_MEANINGS = {"approve": "approved", "hold": "hold", "reject": "rejected"}
+_MEANING_WORDS = {
+    "approved": "release of the lot approved on the evidence in this record",
+    "hold": "the lot is not released until a later signed decision",
+    "rejected": "release of the lot rejected on the evidence in this record",
+}
+_REVIEW_FIELDS = ("decision", "reviewer", "comment", "date", "created_at", "signed", "signer_id",
+                  "signer_username", "signer_full_name", "meaning", "signed_at_utc", "analysis_sha256")
+
+
+def _utc_text(iso: Any) -> str:
+    """'2026-12-03T07:55:12.123456+00:00' -> '2026-12-03 07:55:12 UTC'."""
+    if not iso:
+        return _DASH
+    return str(iso)[:19].replace("T", " ") + " UTC"
 
 
 def _check_review(review: Any) -> dict[str, Any] | None:
     if review is None:
         return None
     if not isinstance(review, Mapping):
-        review = {k: getattr(review, k, None) for k in ("decision", "reviewer", "comment", "date", "created_at")}
+        review = {k: getattr(review, k, None) for k in _REVIEW_FIELDS}
     out = dict(review)
     dec = out.get("decision")
     key = dec.strip().lower() if isinstance(dec, str) else dec
@@ -1230,7 +1262,11 @@ def build_pdf(analysis: Any, *, meta: ReportMeta | None = None, review: Mapping[
         computed from ``analysis.values`` (and subgroups) when not given.
     review : dict, optional
         A review decision: ``decision`` (approve / hold / reject), ``reviewer``,
-        ``comment``, ``date``. A :class:`qcnorm.store.ReviewRecord` works too.
+        ``comment``, ``date``. A :class:`qcnorm.store.ReviewRecord` works too. With
+        ``signed=True`` (an electronic signature in team mode) the signature is printed:
+        ``signer_full_name`` (``signer_username``), ``meaning``, ``signed_at_utc`` (UTC)
+        and the ``analysis_sha256`` it signs; otherwise the section says the decision is
+        not an electronic signature.
     page : {"A4", "Letter"}
         Paper size.
 

@@ -21,6 +21,7 @@ from qcnorm import plots
 from qcnorm.analysis import analyze
 from qcnorm.batch import BatchRow, run_batch
 from qcnorm.data import read_measurements
+from qcnorm.ui import common
 from qcnorm.ui.common import fmt, fmt_p, fmt_ppm
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -81,7 +82,8 @@ def test_demo_overview_ranks_six_with_the_batch_numbers_and_opens_one():
     # the chosen row's "what to know" is shown in full beside the opener (cut off in the table)
     first = ref.rows[0]
     if first.warnings:
-        assert any(c.value == f"**{first.characteristic}:** {first.warnings}" for c in at.caption)
+        md = common.md  # names and messages are shown as text, never as markup
+        assert any(c.value == f"**{md(first.characteristic)}:** {md(first.warnings)}" for c in at.caption)
     # worst first: the batch's own ordering key never decreases down the table
     keys = [r.sort_key for r in ref.rows]
     assert keys == sorted(keys)
@@ -121,7 +123,7 @@ def test_own_file_bad_column_in_its_row_specs_upload_and_bad_specs(rng):
     bad = next(r for r in ref.rows if r.characteristic == "Stuck")
     assert stuck["verdict"] == "NOT ANALYSED" and stuck["what to know"] == bad.error
     assert "no spread" in stuck["what to know"]
-    assert any(bad.error in e.value and "Stuck" in e.value for e in at.error)  # listed under the table too
+    assert any(common.md(bad.error) in e.value and "Stuck" in e.value for e in at.error)  # listed under the table too (as text)
     good = tbl[~tbl["characteristic"].str.startswith("Stuck")]
     assert set(good["verdict"]) == {"not assessed"} and set(good["transform"]) != {"—"}
 

@@ -590,3 +590,43 @@ def test_capability_section_shows_the_range_across_models(pdf_a4, ra_analysis):
     for m in mr.models:
         assert fmt(m.ppm, "ppm") in text
 
+
+# ----------------------------------------------------------------------------- signature
+def test_signed_decision_prints_the_signature_and_single_user_says_it_is_none(ra_analysis, tmp_path):
+    """A review signed in team mode (through the store, as the app does) prints who signed
+    (full name and user name), the meaning, the UTC time and the analysis SHA-256 it signs;
+    a decision recorded without sign-in says it is not an electronic signature.
+    The analysis hash is recomputed here from the stored JSON with hashlib (FIPS 180-4)
+    through the store's documented encoding (qcnorm.store.analysis_sha256)."""
+    from qcnorm.store import HistoryStore, analysis_sha256
+
+    with HistoryStore(tmp_path / "signed.sqlite3") as s:
+        ada = s.add_user("ada", "Ada Lind", "administrator", "admin-pass-9431")
+        tina = s.add_user("tina", "Tina Marsh", "technician", "tech-pass-5520", actor=ada)
+        sam = s.add_user("sam", "Sam Reyes", "supervisor", "super-pass-7718", actor=ada)
+        s.save_characteristic("Ra", units="µm", usl=1.6, actor=tina)
+        aid = s.save_analysis("Ra", analysis=ra_analysis.to_dict(), values=ra_analysis.values, shift="C",
+                              lot="L-1125", operator="Tina Marsh", qcnorm_version=ra_analysis.version,
+                              saved_by=tina)
+        s.save_review(aid, "approve", "signals traced to the insert change", signer=sam,
+                      password="super-pass-7718")
+        rec = s.get_analysis(aid)
+    rv = rec.latest_review
+    # the signed hash, recomputed from the documented bytes: canonical JSON, "\n", data SHA-256
+    import hashlib
+    import json
+
+    canonical = json.dumps(rec.analysis, ensure_ascii=False, sort_keys=True, separators=(",", ":"))
+    expected = hashlib.sha256((canonical + "\n" + rec.data_sha256).encode("utf-8")).hexdigest()
+    assert rv.signed and rv.analysis_sha256 == expected == analysis_sha256(rec.analysis, rec.data_sha256)
+    text = _flat(_text(build_pdf(ra_analysis, meta=META, review=rv)))
+    assert "Signed by Sam Reyes (sam)" in text
+    assert "Meaning approved: release of the lot approved on the evidence in this record" in text
+    assert f"Signed at (UTC) {rv.signed_at_utc[:19].replace('T', ' ')} UTC" in text
+    assert rv.analysis_sha256 in text.replace(" ", "")  # a long hash may wrap inside its cell
+    assert "Not an electronic signature" not in text
+    for secret in ("super-pass-7718", "$argon2"):
+        assert secret not in text
+
+    unsigned = _flat(_text(build_pdf(ra_analysis, meta=META, review=REVIEW)))
+    assert "Not an electronic signature" in unsigned and "Signed by" not in unsigned

@@ -129,7 +129,7 @@ def render() -> None:
     st.markdown(plain_words(a))
     mr_words = model_range_words(cap)  # the verdict text above already carries it when it changed the verdict
 
-    u = f" {a.units}" if a.units else ""
+    u = f" {common.md(a.units)}" if a.units else ""  # typed units: text, not markup
     c1, c2, c3, c4, c5 = st.columns(5)
     c1.metric("Cpk", _fmt(cap.cpk, 3), help=f"{cap.confidence:.0%} interval {_ci(cap.cpk_ci)}")
     c2.metric("Ppk", _fmt(cap.ppk, 3), help=f"{cap.confidence:.0%} interval {_ci(cap.ppk_ci)}")
@@ -142,7 +142,8 @@ def render() -> None:
     with left:
         st.subheader("Indices")
         st.table(indices_table(cap), hide_index=True)
-        lim = common.fmt_limit
+        def lim(v, units):  # typed units: text, not markup
+            return common.fmt_limit(v, common.md(units) if units else units)
         st.caption(f"Specification: LSL {lim(cap.lsl, a.units)}, USL {lim(cap.usl, a.units)}, "
                    f"target {lim(cap.target, a.units)}. "
                    "Intervals: chi-square for Cp/Pp, Bissell (1990) for Cpk/Ppk.")
@@ -173,4 +174,4 @@ def render() -> None:
     if notes:
         st.subheader("Points to note")
         for w in notes:
-            st.markdown(f"- {w}")
+            st.markdown(f"- {common.md(w)}")

@@ -15,13 +15,15 @@ from typing import Any
 
 import streamlit as st
 
+from .._markup import html_text, markdown_text
 from ..caution import CAUTION
 from ..errors import QcnormError, ReadError
 from ..io.hints import hint_text
 from . import state
 
-__all__ = ["CAUTION", "caution", "style", "run_page", "guard", "show_error", "fmt", "fmt_ci", "fmt_p", "fmt_limit",
-           "next_step", "sidebar_summary", "require_analysis", "app_words", "error_words", "chart_words", "CHART_WORDS", "ICONS"]
+__all__ = ["CAUTION", "md", "esc", "caution", "style", "run_page", "guard", "show_error", "fmt", "fmt_ci", "fmt_p",
+           "fmt_limit", "next_step", "sidebar_summary", "require_analysis", "app_words", "error_words", "chart_words",
+           "CHART_WORDS", "ICONS"]
 
 log = logging.getLogger("qcnorm.ui")
 
@@ -30,6 +32,20 @@ APOLOGY = (
     "This is a fault in qcnorm, not in your data handling: please report it with the file "
     "you loaded and the step you were on. Your other results are unaffected."
 )
+
+
+def md(text: Any, *, multiline: bool = False) -> str:
+    """User-typed text (names, comments, characteristic names, units, file names, labels,
+    messages that quote them) for any Markdown-rendering call: st.markdown, st.caption,
+    st.info/success/warning/error, widget labels. It renders as exactly the characters typed:
+    ``<b>x</b>`` shows as such, ``**``, links and ``:colour[...]`` badges do nothing.
+    The one helper every page uses (see :mod:`qcnorm._markup`)."""
+    return markdown_text(text, multiline=multiline)
+
+
+def esc(text: Any) -> str:
+    """User-typed text placed inside raw HTML (unsafe_allow_html) or a plotly label."""
+    return html_text(text)
 
 
 def caution() -> None:
@@ -104,7 +120,8 @@ def error_words(exc: QcnormError) -> str:
 def show_error(exc: BaseException) -> None:
     """One short message: the core's own words for user problems, an apology otherwise."""
     if isinstance(exc, QcnormError):
-        st.error(error_words(exc), icon=":material/front_hand:")
+        # the core's messages quote file, column and characteristic names: shown as text
+        st.error(md(error_words(exc), multiline=True), icon=":material/front_hand:")
     else:
         log.exception("qcnorm internal error on the page")
         st.error(f"{APOLOGY} (internal detail: {type(exc).__name__})", icon=":material/build:")
@@ -119,12 +136,27 @@ def guard(fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
         return None
 
 
-def run_page(spec: Any) -> None:
-    """Draw one page: title, caution, body inside the error boundary, caution again."""
+def run_page(spec: Any, ctx: Any = None) -> None:
+    """Draw one page: title, caution, the mode notice, body inside the error boundary.
+
+    ``ctx`` (:class:`qcnorm.ui.auth.Context`) says who is signed in; a page the user may
+    not see (registry.allowed) is not drawn, whatever the session asks for.
+    """
+    from . import auth, registry
+
     st.title(spec.title.split("·", 1)[-1].strip())
     if spec.help:
         st.caption(spec.help)
     caution()
+    if ctx is not None:
+        auth.mode_notice(ctx)
+        auth.show_flash()
+        if not registry.allowed(spec, ctx):
+            if ctx.team and ctx.user is None:
+                st.info("Sign in first: this history database has accounts.")
+            else:
+                st.warning("This page is not open to your role.", icon=ICONS["stop"])
+            return
     if spec.needs_data and state.source() is None:
         st.info("No measurements loaded yet. Go to **1 · Load** and choose the demo data, upload a "
                 "file or paste from a spreadsheet.")
@@ -212,7 +244,7 @@ def sidebar_summary() -> None:
         st.caption("Nothing loaded.")
         return
     what = state.get("qc_characteristic") or state.get("qc_column") or "—"
-    st.caption(f"**Data:** {src.name}  \n**Characteristic:** {what}")
+    st.caption(f"**Data:** {md(src.name)}  \n**Characteristic:** {md(what)}")
     ex = state.exclusions()
     if ex:
         st.caption(f"**Excluded points:** {len(ex)}")

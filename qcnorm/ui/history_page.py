@@ -30,7 +30,7 @@ _INDEX_NAMES = {"cpk": "Cpk (within)", "ppk": "Ppk (overall)"}
 
 def shift_label(r: AnalysisRecord) -> str:
     """x-axis label of a saved analysis: '#12 · 2026-11-25 C'."""
-    return f"#{r.id} · {r.shift or r.created_at[:10]}"
+    return f"#{r.id} · {common.esc(r.shift or r.created_at[:10])}"  # plotly reads HTML: typed text escaped
 
 
 def _num(v: Any) -> float | None:
@@ -122,9 +122,11 @@ def decisions_table(s: HistoryStore, records: Sequence[AnalysisRecord]) -> pd.Da
             rows.append({"review #": v.id, "analysis #": r.id, "shift": r.shift, "decision": v.decision,
                          "reviewer": v.reviewer, "comment": v.comment,
                          "when (UTC)": v.created_at[:16].replace("T", " "),
+                         "signature": (f"signed by {v.signer_username} ({v.meaning})" if getattr(v, "signed", False)
+                                       else "none (single-user mode)"),
                          "replaces review #": v.supersedes})
     df = pd.DataFrame(rows, columns=["review #", "analysis #", "shift", "decision", "reviewer", "comment",
-                                     "when (UTC)", "replaces review #"])
+                                     "when (UTC)", "signature", "replaces review #"])
     df["replaces review #"] = df["replaces review #"].astype("Int64")
     return df.sort_values("review #", ascending=False, ignore_index=True)
 
@@ -132,7 +134,7 @@ def decisions_table(s: HistoryStore, records: Sequence[AnalysisRecord]) -> pd.Da
 def _baselines(s: HistoryStore, name: str) -> None:
     bs = s.list_baselines(name)
     if not bs:
-        st.caption(f"No baseline frozen for {name}: every shift was analysed on its own (Phase I).")
+        st.caption(f"No baseline frozen for {common.md(name)}: every shift was analysed on its own (Phase I).")
         return
     df = pd.DataFrame([{"baseline #": b.id, "frozen": b.created_at[:16].replace("T", " "), "by": b.created_by,
                         "transform": b.transform, "chart": b.chart_type, "n": b.n, "why": b.reason}
@@ -149,6 +151,7 @@ def render() -> None:
         st.info("The history database cannot be opened, so there is no history to show now.")
         return
     rp.show_database(s)
+    rp.show_chain(s)  # every record re-checked against its chained SHA-256, prominently
     chars = [c.name for c in s.list_characteristics()]
     if not chars:
         st.info("Nothing saved yet. Save a shift on page 5 · Save & baseline to start the history.")
@@ -167,12 +170,13 @@ def render() -> None:
     name = rs.get("rs_history_char")
     c = s.get_characteristic(name)
     if c is not None:
-        lim = common.fmt_limit  # a blank limit reads "none", not "— µm"
+        def lim(v, units):  # a blank limit reads "none", not "— µm"; typed units: text, not markup
+            return common.fmt_limit(v, common.md(units) if units else units)
         st.caption(f"Spec: LSL {lim(c.lsl, c.units)}, USL {lim(c.usl, c.units)}, target {lim(c.target, c.units)}; "
                    f"required index {common.fmt(c.required_index, 3)} (revision {c.revision}).")
     records = list(reversed(s.list_analyses(name, limit=200)))
     if not records:
-        st.info(f"No shift of {name} saved yet.")
+        st.info(f"No shift of {common.md(name)} saved yet.")
         return
     st.plotly_chart(capability_over_shifts_figure(records), width="stretch", key="rs_hist_cap")
     st.caption("Capability of a shift whose chart shows signals (hollow markers) is not meaningful: it "

@@ -133,7 +133,7 @@ def _source_section() -> None:
                 _new_source(state.Source(name="pasted text", data=text.encode("utf-8"), kind="paste"))
     src = state.source()
     if src is not None:
-        st.caption(f"Loaded: **{src.name}** ({len(src.data):,} bytes, {_LOADED_AS[src.kind]}).")
+        st.caption(f"Loaded: **{common.md(src.name)}** ({len(src.data):,} bytes, {_LOADED_AS[src.kind]}).")
 
 
 # --------------------------------------------------------------------------------------
@@ -196,7 +196,7 @@ def _specs_section() -> None:
     st.subheader("Specification")
     c1, c2, c3, c4 = st.columns(4)
     u = state.get("qc_units") or ""
-    u = f" [{u}]" if u else ""
+    u = f" [{common.md(u)}]" if u else ""  # typed units: shown as text in the labels
     c1.number_input(f"LSL{u}", key="qc_lsl", format="%g", step=None,
                     help="Lower spec limit. Leave blank for a one-sided upper specification.")
     c2.number_input(f"USL{u}", key="qc_usl", format="%g", step=None,
@@ -235,12 +235,12 @@ def _ingest_section() -> None:
     if rep.header_row:
         fmt.append(f"header in row {rep.header_row}")
     if rep.sheet:
-        fmt.append(f"sheet '{rep.sheet}'")
+        fmt.append(f"sheet '{common.md(rep.sheet)}'")
     st.caption("Read as: " + ", ".join(fmt) + ".")
     for w in rep.warnings:
-        st.warning(common.app_words(w))
+        st.warning(common.md(common.app_words(w), multiline=True))
     for n in rep.notes:
-        st.caption(f"Note: {common.app_words(n)}")
+        st.caption(f"Note: {common.md(common.app_words(n), multiline=True)}")
     if rep.excluded:
         st.markdown(f"**Rows left out ({len(rep.excluded)})** — row numbers as in the file:")
         rows = m.excluded_rows()

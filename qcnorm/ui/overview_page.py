@@ -262,7 +262,7 @@ def open_characteristic(name: str, rows: tuple[BatchRow, ...]) -> None:
     info = None if src is None else _info_name(src, name)
     if row is None or info is None:
         st.session_state["qc_ov_open_error"] = (
-            f"'{name}' is no longer in the loaded file. Reload the file on the Load page.")
+            f"'{common.md(name)}' is no longer in the loaded file. Reload the file on the Load page.")
         return
     ss = st.session_state
     ss["qc_ov_open_error"] = ""
@@ -290,7 +290,7 @@ def _open_section(res: BatchResult) -> None:
     # the "what to know" text of the chosen row, in full (in the wide table it is cut off)
     row = next((r for r in res.rows if r.characteristic == st.session_state.get("qc_ov_pick")), None)
     if row is not None and (row.error or row.warnings):
-        st.caption(f"**{row.characteristic}:** {row.error or row.warnings}")
+        st.caption(f"**{common.md(row.characteristic)}:** {common.md(row.error or row.warnings)}")
     if st.session_state.get("qc_ov_open_error"):
         st.error(st.session_state["qc_ov_open_error"])
 
@@ -315,7 +315,7 @@ def render() -> None:
     records = _limits_section(src, names)
     sub = state.get("qc_subgroup")
     st.caption(
-        f"File **{src.name}** · subgroups: {'column ' + repr(sub) if sub else 'none (individuals)'} · "
+        f"File **{common.md(src.name)}** · subgroups: {'column ' + common.md(repr(sub)) if sub else 'none (individuals)'} · "
         f"transform: {state.get('qc_transform')} · chart: {state.get('qc_chart')} · rules: "
         f"{state.get('qc_rules').replace('_', ' ')} — as set on the Load and Shape pages. Ranked by the "
         "lower 95 % confidence bound of the smaller of Cpk and Ppk; rows that could not be analysed first."
@@ -338,7 +338,7 @@ def render() -> None:
     failed = [r for r in res.rows if r.error]
     if failed:  # the reason is in the row too, but far to the right of a wide table
         st.error("Not analysed (the others are unaffected):\n\n" + "\n".join(
-            f"- **{r.characteristic}**: {r.error}" for r in failed[:20])
+            f"- **{common.md(r.characteristic)}**: {common.md(r.error)}" for r in failed[:20])
             + (f"\n- … and {len(failed) - 20} more (see the table)" if len(failed) > 20 else ""),
             icon=":material/front_hand:")
     shown = res.rows[:CHART_ROWS]

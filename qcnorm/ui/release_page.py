@@ -35,14 +35,14 @@ import streamlit as st
 
 from ..analysis import Analysis, Baseline, analyze
 from ..checklist import ChecklistItem, checklist_outcome, review_checklist
-from ..errors import ConfigError, StoreError
+from ..errors import AuthError, ConfigError, StoreError
 from ..report import ReportMeta, build_pdf
 from ..store import AnalysisRecord, BaselineRecord, HistoryStore, data_sha256, default_db_url
-from . import common, compute, state
+from . import auth, common, compute, state
 from . import release_state as rs
 
 __all__ = [
-    "open_store", "store", "show_database", "history_name", "frozen_baseline", "shift_analysis",
+    "open_store", "store", "show_database", "show_chain", "history_name", "frozen_baseline", "shift_analysis",
     "save_shift", "freeze_baseline", "Reproduction", "reproduce", "saved_pdf", "current_pdf",
     "render_checklist", "pdf_section", "render",
 ]
@@ -82,6 +82,26 @@ def store() -> HistoryStore:
 
 def show_database(s: HistoryStore) -> None:
     st.caption(f"History database: `{s.url}`  (set QCNORM_DB to use another file or a server)")
+
+
+def show_chain(s: HistoryStore) -> bool:
+    """Check the record chain now (HistoryStore.verify_chain) and say so prominently:
+    "record intact", or which record does not match. Returns True when intact."""
+    chk = common.guard(s.verify_chain)
+    if chk is None:
+        return False
+    if chk.ok:
+        st.success(f"**Record intact** — all {chk.checked:,} records match their chained SHA-256 "
+                   "fingerprints (checked just now): nothing was changed or removed after it was written.",
+                   icon=":material/verified:")
+        return True
+    where = common.md(chk.first_bad) if chk.first_bad else "a record"
+    st.error(f"**Record NOT intact** — {where} does not match what was written"
+             + (f": {common.md(chk.detail)}" if chk.detail else "")
+             + f". Checked {chk.checked:,} records. Do not release on records from this one on; tell the "
+             "quality manager and compare with the last backup or the printed PDFs.",
+             icon=":material/gpp_bad:")
+    return False
 
 
 def history_name(a: Analysis) -> str:
@@ -130,37 +150,42 @@ def _labels(a: Analysis) -> list[str] | None:
     return None if a.subgroups is None else [str(g) for g in a.subgroups]
 
 
-def _save_characteristic(s: HistoryStore, a: Analysis, who: str) -> str:
+def _save_characteristic(s: HistoryStore, a: Analysis, who: str, actor: Any = None) -> str:
     name = history_name(a)
     st_ = a.settings
     s.save_characteristic(name, units=a.units, lsl=st_.lsl, usl=st_.usl, target=st_.target,
-                          required_index=st_.required_index, created_by=who)
+                          required_index=st_.required_index, created_by=who, actor=actor)
     return name
 
 
 def save_shift(s: HistoryStore, a: Analysis, baseline: BaselineRecord | None, *, operator: str,
-               shift: str, lot: str = "", note: str = "", supersedes: int | None = None) -> int:
-    """Save the analysis with its measurements; returns the new analysis id."""
-    name = _save_characteristic(s, a, operator)
+               shift: str, lot: str = "", note: str = "", supersedes: int | None = None,
+               saved_by: Any = None) -> int:
+    """Save the analysis with its measurements; returns the new analysis id.
+
+    ``saved_by`` is the signed-in account (team mode; the operator is then its full name),
+    None in single-user mode (the operator is the name typed)."""
+    name = _save_characteristic(s, a, operator, saved_by)
     return s.save_analysis(
         name, analysis=a.to_dict(), values=a.values, subgroups=_labels(a), shift=shift, lot=lot,
         operator=operator, note=note, qcnorm_version=a.version,
         baseline_id=baseline.id if (baseline is not None and a.phase == "II") else None,
-        supersedes=supersedes,
+        supersedes=supersedes, saved_by=saved_by,
     )
 
 
-def freeze_baseline(s: HistoryStore, a: Analysis, *, by: str, reason: str) -> int:
-    """Freeze a Phase I analysis as the characteristic's baseline; returns the baseline id."""
+def freeze_baseline(s: HistoryStore, a: Analysis, *, by: str, reason: str, actor: Any = None) -> int:
+    """Freeze a Phase I analysis as the characteristic's baseline; returns the baseline id.
+    ``actor``: the signed-in supervisor (team mode) or None (single-user mode)."""
     if a.phase != "I":
         raise ConfigError("Only a Phase I analysis (transform fitted to these data) can be frozen as a "
                           "baseline. Turn off 'chart against the frozen baseline' first.")
-    name = _save_characteristic(s, a, by)
+    name = _save_characteristic(s, a, by, actor)
     b = a.to_baseline(note=reason)
     record = {**b.to_dict(), "transform": b.transform_name, "center": b.chart.center,
               "sigma": b.chart.sigma_within, "chart_type": b.chart.chart}
     return s.save_baseline(name, baseline=record, values=a.values, subgroups=_labels(a),
-                           created_by=by, reason=reason)
+                           created_by=by, reason=reason, actor=actor)
 
 
 # --------------------------------------------------------------------------------------
@@ -268,8 +293,9 @@ def render_checklist(items: tuple[ChecklistItem, ...]) -> None:
         label, fg, bg = STATUS_BADGE[it.status]
         badge = (f"<span style='display:inline-block;min-width:2.6em;text-align:center;font-weight:700;"
                  f"font-size:0.8em;padding:1px 6px;border-radius:4px;color:{fg};background:{bg}'>{label}</span>")
-        lines.append(f"{badge} **{it.name}** — {it.detail}  \n"
-                     f"<span style='color:#5b6770;font-size:0.85em'>rule: {it.rule}</span>")
+        # detail and rule quote figures, units and names from the record: text, never markup
+        lines.append(f"{badge} **{it.name}** — {common.md(it.detail)}  \n"
+                     f"<span style='color:#5b6770;font-size:0.85em'>rule: {common.md(it.rule)}</span>")
     with st.container(border=True):
         st.markdown("**Release checklist** (decision support)")
         st.markdown("\n\n".join(lines), unsafe_allow_html=True)
@@ -301,6 +327,7 @@ def show_flash() -> None:
     msg = rs.pop_flash()
     if msg:
         kind, text = msg
+        # the text was built with every user string passed through common.md already
         {"success": st.success, "warning": st.warning}.get(kind, st.info)(text)
 
 
@@ -325,20 +352,21 @@ def _summary(a: Analysis) -> None:
 
 def _phase_notice(a: Analysis, b: BaselineRecord | None, name: str) -> None:
     if b is None:
-        st.info(f"No baseline is frozen for **{name}** yet: this is a Phase I analysis (transform and "
+        st.info(f"No baseline is frozen for **{common.md(name)}** yet: this is a Phase I analysis (transform and "
                 "limits estimated from the data loaded). Freeze a baseline below once the period is "
                 "stable and its assignable causes are excluded.", icon=common.ICONS["info"])
         return
     st.toggle(f"Chart against the frozen baseline #{b.id} (Phase II)", key="rs_use_baseline",
               help="Off: estimate transform and limits from the data loaded (Phase I).")
-    who = f"frozen by {b.created_by} on {b.created_at[:10]} from {b.n:,} values ({b.reason})"
+    who = (f"frozen by {common.md(b.created_by)} on {b.created_at[:10]} from {b.n:,} values "
+           f"({common.md(b.reason)})")
     if a.phase == "II":
-        st.info(f"**Phase II** — these data are charted against the frozen baseline #{b.id} of **{name}** "
+        st.info(f"**Phase II** — these data are charted against the frozen baseline #{b.id} of **{common.md(name)}** "
                 f"({who}). The baseline's transform ({a.transform.describe().rstrip('.')}) is applied "
                 "*without refitting*, so this shift is judged on the same scale as the baseline.",
                 icon=common.ICONS["frozen"])
     else:
-        st.warning(f"**Phase I** — a baseline (#{b.id}, {who}) exists for **{name}**, but these data are "
+        st.warning(f"**Phase I** — a baseline (#{b.id}, {who}) exists for **{common.md(name)}**, but these data are "
                    "analysed on their own: transform and limits are re-estimated.", icon=common.ICONS["info"])
 
 
@@ -349,9 +377,18 @@ def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> Non
     fingerprint = "|".join((history_name(a), data_sha256(a.values, _labels(a)),
                             repr(a.to_dict()["settings"])))
     earlier = (rs.get("rs_saved") or {}).get(fingerprint)
+    ctx = auth.current()
+    user = ctx.user if ctx.team else None
+    if ctx.team and not auth.can(ctx, "save"):
+        st.warning(f"Saving a shift is for {auth.who_may('save')}. You are signed in as "
+                   f"{auth.user_words(user)}.", icon=common.ICONS["stop"])
+        return
     with st.form("rs_save_form"):
         c1, c2, c3 = st.columns(3)
-        c1.text_input("Operator (your name) *", key="rs_operator")
+        if user is not None:  # team mode: who saves is the signed-in account, never a typed name
+            c1.markdown(f"**Saved by**  \n{common.md(user.full_name)} ({common.md(user.username)})")
+        else:
+            c1.text_input("Operator (your name) *", key="rs_operator")
         c2.text_input("Shift label *", key="rs_shift", placeholder="e.g. 2026-11-25 night")
         c3.text_input("Lot", key="rs_lot", placeholder="optional")
         st.text_area("Note", key="rs_note", height=80,
@@ -362,7 +399,8 @@ def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> Non
         go_ = st.form_submit_button("Save this shift", type="primary")
     if not go_:
         return
-    operator, shift = rs.get("rs_operator").strip(), rs.get("rs_shift").strip()
+    operator = user.full_name if user is not None else rs.get("rs_operator").strip()
+    shift = rs.get("rs_shift").strip()
     missing = [w for w, v in (("the operator's name", operator), ("a shift label", shift)) if not v]
     if missing:
         st.error(f"Not saved: enter {' and '.join(missing)} — every saved shift says who measured it "
@@ -374,7 +412,10 @@ def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> Non
         return
     try:
         new_id = save_shift(s, a, b, operator=operator, shift=shift, lot=rs.get("rs_lot").strip(),
-                            note=rs.get("rs_note").strip(), supersedes=earlier)
+                            note=rs.get("rs_note").strip(), supersedes=earlier, saved_by=user)
+    except AuthError as exc:
+        st.error(f"Not saved: {common.md(str(exc))}", icon=common.ICONS["stop"])
+        return
     except StoreError as exc:
         st.error(f"Not saved — the history database did not accept it. Nothing already saved was "
                  f"changed, and your entries are still in the form. {exc}", icon=common.ICONS["stop"])
@@ -384,22 +425,31 @@ def _save_section(s: HistoryStore, a: Analysis, b: BaselineRecord | None) -> Non
     rs.put("rs_saved", saved)
     rs.put("rs_last_saved", new_id)
     extra = f" (replaces #{earlier})" if earlier is not None else ""
-    rs.flash("success", f"Saved as analysis #{new_id}{extra} for **{history_name(a)}**, shift "
-                        f"{shift}, phase {a.phase}. It is now waiting for review on page 6 · Review.")
+    rs.flash("success", f"Saved as analysis #{new_id}{extra} for **{common.md(history_name(a))}**, shift "
+                        f"{common.md(shift)}, phase {a.phase}. It is now waiting for review on page 6 · Review.")
     st.rerun()
 
 
 def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
     name = history_name(a1)
     st.subheader("Freeze as baseline")
-    st.caption(f"Freezes the Phase I estimate of the data loaded for **{name}**: transform "
+    st.caption(f"Freezes the Phase I estimate of the data loaded for **{common.md(name)}**: transform "
                f"**{a1.transform.name}** fitted to these {a1.n:,} values, centre and within sigma of the "
                f"{common.chart_words(a1.chart.chart)} chart ({len(a1.excluded)} exclusion(s)). Later shifts are then charted "
                "against it without refitting (Phase II). A new freeze replaces it for later shifts; "
                "earlier records keep the baseline they were charted against.")
+    ctx = auth.current()
+    user = ctx.user if ctx.team else None
+    if ctx.team and not auth.can(ctx, "freeze"):
+        st.info(f"Freezing a baseline is for {auth.who_may('freeze')}. You are signed in as "
+                f"{auth.user_words(user)}.", icon=common.ICONS["info"])
+        return
     with st.form("rs_freeze_form"):
         c1, c2 = st.columns([1, 2])
-        c1.text_input("Frozen by *", key="rs_freeze_by")
+        if user is not None:  # team mode: the signed-in supervisor
+            c1.markdown(f"**Frozen by**  \n{common.md(user.full_name)} ({common.md(user.username)})")
+        else:
+            c1.text_input("Frozen by *", key="rs_freeze_by")
         c2.text_input("Why this period is a good baseline *", key="rs_freeze_reason",
                       placeholder="e.g. ten stable days after the November tool change")
         if not a1.in_control:
@@ -408,7 +458,8 @@ def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
         go_ = st.form_submit_button("Freeze as baseline")
     if not go_:
         return
-    by, why = rs.get("rs_freeze_by").strip(), rs.get("rs_freeze_reason").strip()
+    by = user.full_name if user is not None else rs.get("rs_freeze_by").strip()
+    why = rs.get("rs_freeze_reason").strip()
     missing = [w for w, v in (("who freezes it", by), ("why this period is a good baseline", why)) if not v]
     if missing:
         st.error(f"Not frozen: enter {' and '.join(missing)}.", icon=common.ICONS["stop"])
@@ -418,14 +469,17 @@ def _freeze_section(s: HistoryStore, a1: Analysis) -> None:
                  "assignable causes on 3 · Stability first, or tick the box to freeze anyway.", icon=common.ICONS["stop"])
         return
     try:
-        bid = freeze_baseline(s, a1, by=by, reason=why)
+        bid = freeze_baseline(s, a1, by=by, reason=why, actor=user)
+    except AuthError as exc:
+        st.error(f"Not frozen: {common.md(str(exc))}", icon=common.ICONS["stop"])
+        return
     except StoreError as exc:
         st.error(f"Not frozen — the history database did not accept it. Nothing already saved was "
                  f"changed. {exc}", icon=common.ICONS["stop"])
         return
     rs.put("rs_last_baseline", bid)
     rs.put("rs_use_baseline", True)
-    rs.flash("success", f"Baseline #{bid} frozen for **{name}**. Later shifts of {name} are charted "
+    rs.flash("success", f"Baseline #{bid} frozen for **{common.md(name)}**. Later shifts of {common.md(name)} are charted "
                         "against it (Phase II); load the next shift's data and come back here.")
     st.rerun()
 
@@ -448,12 +502,12 @@ def render() -> None:
     if out is None:
         return
     a, b = out
-    st.markdown(f"#### {name}" + (f"  ·  {a.units}" if a.units else "") + f"  ·  phase {a.phase}")
+    st.markdown(f"#### {common.md(name)}" + (f"  ·  {common.md(a.units)}" if a.units else "") + f"  ·  phase {a.phase}")
     _phase_notice(a, b, name)
     _summary(a)
     render_checklist(review_checklist(a))
     for w in a.warnings:
-        st.caption(f"⚑ {w}")
+        st.caption(f"⚑ {common.md(w)}")
     common.guard(_save_section, s, a, b)
     st.subheader("PDF summary")
     src = state.source()

@@ -12,20 +12,23 @@ lives here and nowhere else.
 
 Keys (all start with ``rs_``; add new ones to :data:`DEFAULTS` with a comment)
 ------------------------------------------------------------------------------
-rs_operator          technician's name for "save this shift" (required to save)
+rs_operator          technician's name for "save this shift" (single-user mode only; team mode records
+                     the signed-in account)
 rs_shift             shift label, e.g. "2026-11-25 C" (required to save)
 rs_lot               lot number (optional)
 rs_note              free note saved with the shift (optional)
 rs_use_baseline      chart the loaded data against the frozen baseline (Phase II) when one exists
-rs_freeze_by         name of the person freezing a baseline (required)
+rs_freeze_by         name of the person freezing a baseline (single-user mode only)
 rs_freeze_reason     why this period is a good baseline (required)
 rs_freeze_unstable   "freeze although the chart shows signals" confirmation
 rs_save_again        "save again as a correction of the earlier record" confirmation
-rs_reviewer          supervisor's name (required to record a decision)
+rs_reviewer          supervisor's name (single-user mode only: required to record a decision; in team
+                     mode the signer is the signed-in account, qc_user, and this field is not drawn)
 rs_show_reviewed     review page lists every saved analysis, not only those awaiting review
 rs_review_pick       id of the saved analysis opened on the review page
 rs_decision          "approve" | "hold" | "reject" (None until chosen)
 rs_comment           reviewer's comment (required for hold and reject)
+rs_sign_problem      why the last signing attempt was refused, shown beside the form on the next run
 rs_open_next         id of an analysis to keep open on the review page after its decision (or None)
 rs_history_char      characteristic shown on the history page
 rs_saved             {fingerprint of what was saved: analysis id} for saves in this session
@@ -59,6 +62,7 @@ DEFAULTS: dict[str, Any] = {
     "rs_review_pick": None,
     "rs_decision": None,
     "rs_comment": "",
+    "rs_sign_problem": None,
     "rs_open_next": None,
     "rs_history_char": None,
     "rs_saved": {},

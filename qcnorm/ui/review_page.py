@@ -19,13 +19,13 @@ import streamlit as st
 
 from .. import plots
 from ..checklist import review_checklist
-from ..errors import StoreError
+from ..errors import AuthError, StoreError
 from ..store import DECISIONS, AnalysisRecord, HistoryStore
-from . import common
+from . import auth, common
 from . import release_page as rp
 from . import release_state as rs
 
-__all__ = ["DECISION_LABELS", "decision_badge", "awaiting_table", "evidence_table", "record_decision", "render"]
+__all__ = ["DECISION_LABELS", "SIGNATURE_MEANING", "meaning_text", "reviewer_name", "decision_badge", "awaiting_table", "evidence_table", "record_decision", "render"]
 
 _fmt = common.fmt
 DECISION_LABELS = {"approve": "Approve", "hold": "Hold", "reject": "Reject"}
@@ -101,13 +101,24 @@ def evidence_table(d: dict[str, Any]) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=["figure", "value"])
 
 
-def record_decision(s: HistoryStore, record: AnalysisRecord, *, decision: str | None, reviewer: str,
-                    comment: str) -> tuple[bool, str]:
-    """Validate and save one review; returns (saved?, message). Nothing is saved on a problem."""
-    reviewer, comment = (reviewer or "").strip(), (comment or "").strip()
+#: what a signature means, by decision (printed with the signature; {lot} is the lot's words)
+SIGNATURE_MEANING = {
+    "approve": "By signing you approve release of {lot} on the evidence shown on this page.",
+    "hold": "By signing you put {lot} on hold: it is not released until a later signed decision.",
+    "reject": "By signing you reject release of {lot} on the evidence shown on this page.",
+}
+
+
+def meaning_text(record: AnalysisRecord, decision: str) -> str:
+    """The meaning of a signature on this record, in words (Markdown-safe)."""
+    lot = (f"lot **{common.md(record.lot)}**" if record.lot else "the lot of this shift (no lot number saved)")
+    lot += (f" ({common.md(record.characteristic)}, shift {common.md(record.shift or '—')}, "
+            f"analysis #{record.id})")
+    return SIGNATURE_MEANING[decision].format(lot=lot)
+
+
+def _problems(record: AnalysisRecord, decision: str | None, comment: str) -> list[str]:
     problems = []
-    if not reviewer:
-        problems.append("enter your name as reviewer")
     if decision not in DECISIONS:
         problems.append("choose approve, hold or reject")
     elif decision in ("hold", "reject") and not comment:
@@ -117,14 +128,41 @@ def record_decision(s: HistoryStore, record: AnalysisRecord, *, decision: str | 
         if failed:
             problems.append("the checklist answers NO to " + "; ".join(f"'{q}'" for q in failed)
                             + " — say in the comment why you approve all the same")
+    return problems
+
+
+def record_decision(s: HistoryStore, record: AnalysisRecord, *, decision: str | None, reviewer: str = "",
+                    comment: str, signer: Any = None, password: str | None = None) -> tuple[bool, str]:
+    """Validate and save one review; returns (saved?, message). Nothing is saved on a problem.
+
+    Team mode: ``signer`` is the signed-in account and ``password`` the one re-entered to
+    sign; the store checks both, the role and that the signer did not save the shift, and
+    raises AuthError/PermissionDenied (its message says who may sign). Single-user mode:
+    ``reviewer`` is the name typed (not an electronic signature).
+    """
+    reviewer, comment = (reviewer or "").strip(), (comment or "").strip()
+    problems = []
+    if signer is None and not reviewer:
+        problems.append("enter your name as reviewer")
+    if signer is not None and not password:
+        problems.append("enter your password to sign")
+    problems += _problems(record, decision, comment)
     if problems:
         return False, "Decision not recorded: " + "; ".join(problems) + "."
     prev = record.latest_review
-    rid = s.save_review(record.id, decision=decision, reviewer=reviewer, comment=comment,
-                        supersedes=None if prev is None else prev.id)
+    supersedes = None if prev is None else prev.id
+    if signer is not None:
+        rid = s.save_review(record.id, decision, comment, signer=signer, password=password,
+                            supersedes=supersedes)
+        who = f"signed by {common.md(signer.full_name)} ({common.md(signer.username)})"
+    else:
+        rid = s.save_review(record.id, decision, comment, signer=None, password=None, reviewer=reviewer,
+                            supersedes=supersedes)
+        who = f"by {common.md(reviewer)} (single-user mode: not an electronic signature)"
     extra = f" It replaces review #{prev.id} ({prev.decision})." if prev is not None else ""
     return True, (f"Review #{rid} recorded: **{DECISION_LABELS[decision]}** for analysis #{record.id} "
-                  f"({record.characteristic}, shift {record.shift or '—'}) by {reviewer}.{extra}")
+                  f"({common.md(record.characteristic)}, shift {common.md(record.shift or '—')}) "
+                  f"{who}.{extra}")
 
 
 # --------------------------------------------------------------------------------------
@@ -162,10 +200,11 @@ def _pick(s: HistoryStore) -> AnalysisRecord | None:
 
 def _header(s: HistoryStore, r: AnalysisRecord) -> None:
     d = r.analysis
-    st.markdown(f"### #{r.id} · {r.characteristic}" + (f" [{d.get('units')}]" if d.get("units") else ""))
+    md = common.md  # everything typed by a person or read from a file is shown as text
+    st.markdown(f"### #{r.id} · {md(r.characteristic)}" + (f" [{md(d.get('units'))}]" if d.get("units") else ""))
     c1, c2, c3, c4 = st.columns(4)
-    c1.markdown(f"**Shift** {r.shift or '—'}  \n**Lot** {r.lot or '—'}")
-    c2.markdown(f"**Operator** {r.operator or '—'}  \n**Saved** {_when(r.created_at)}")
+    c1.markdown(f"**Shift** {md(r.shift) or '—'}  \n**Lot** {md(r.lot) or '—'}")
+    c2.markdown(f"**Operator** {md(r.operator) or '—'}  \n**Saved** {_when(r.created_at)}")
     c3.markdown(f"**Phase** {d.get('phase', '—')}  \n**Baseline** "
                 + (f"#{r.baseline_id}" if r.baseline_id else "none (Phase I)"))
     c4.markdown(f"**n** {r.n:,}  \n**qcnorm** {r.qcnorm_version}")
@@ -177,30 +216,30 @@ def _header(s: HistoryStore, r: AnalysisRecord) -> None:
         st.error(f"The stored measurements no longer match their SHA-256 fingerprint ({r.data_sha256}). "
                  "Do not release on this record; ask the technician to save the shift again.", icon=common.ICONS["stop"])
     if r.note:
-        st.markdown(f"**Technician's note:** {r.note}")
+        st.markdown(f"**Technician's note:** {md(r.note, multiline=True)}")
     if r.supersedes:
         st.caption(f"This record is a correction: it replaces analysis #{r.supersedes}.")
     if d.get("phase") == "II":
         st.info("Phase II: charted against the frozen baseline; transform not refitted. "
-                + str((d.get("transform") or {}).get("reason") or ""), icon=common.ICONS["frozen"])
+                + md((d.get("transform") or {}).get("reason") or ""), icon=common.ICONS["frozen"])
 
 
 def _baseline_and_earlier(s: HistoryStore, r: AnalysisRecord) -> None:
     if r.baseline_id:
         b = s.get_baseline(r.baseline_id)
         st.caption(f"Frozen baseline #{b.id}: transform {b.transform}, {common.chart_words(b.chart_type)} chart, from {b.n:,} "
-                   f"values; frozen by {b.created_by} on {b.created_at[:10]} — {b.reason}")
+                   f"values; frozen by {common.md(b.created_by)} on {b.created_at[:10]} — {common.md(b.reason)}")
     h = s.history(r.characteristic)
     earlier = h[h["id"] < r.id].tail(8)
     if len(earlier):
-        st.markdown(f"**Earlier shifts of {r.characteristic}** (latest {len(earlier)}; all on page 7 · History)")
+        st.markdown(f"**Earlier shifts of {common.md(r.characteristic)}** (latest {len(earlier)}; all on page 7 · History)")
         view = earlier[["id", "shift", "operator", "n", "transform", "cpk", "ppk", "in_control",
                         "violations", "decision"]].rename(columns={"id": "#", "in_control": "in control"})
         st.dataframe(view, hide_index=True, width="stretch",
                      column_config={"cpk": st.column_config.NumberColumn("Cpk", format="%.2f"),
                                     "ppk": st.column_config.NumberColumn("Ppk", format="%.2f")})
     else:
-        st.caption(f"No earlier shifts of {r.characteristic} in the history.")
+        st.caption(f"No earlier shifts of {common.md(r.characteristic)} in the history.")
 
 
 def _chart(s: HistoryStore, r: AnalysisRecord) -> None:
@@ -225,36 +264,122 @@ def _trail(s: HistoryStore, r: AnalysisRecord) -> None:
     st.markdown("**Decisions recorded** (oldest first; none is ever changed or deleted)")
     for v in reviews:
         rep = f" — replaces review #{v.supersedes}" if v.supersedes else ""
-        st.markdown(f"{decision_badge(v.decision)} Review #{v.id} by **{v.reviewer}**, "
+        st.markdown(f"{decision_badge(v.decision)} Review #{v.id} by "
+                    f"**{common.md(reviewer_name(v))}**, "
                     f"{_when(v.created_at)}{rep}", unsafe_allow_html=True)
-        st.markdown(f"> {v.comment or '(no comment)'}")
+        st.markdown(f"> {common.md(v.comment, multiline=True) or '(no comment)'}")
+        st.caption(_trail_signature(v))
+
+
+def _saver_username(r: AnalysisRecord) -> str | None:
+    """User name of the account that saved the record, when the store keeps it."""
+    for attr in ("saved_by_username", "saved_by"):
+        v = getattr(r, attr, None)
+        if isinstance(v, str) and v:
+            return v
+        if v is not None and getattr(v, "username", None):
+            return v.username
+    return None
+
+
+def _refusal(ctx: Any, r: AnalysisRecord) -> str | None:
+    """Why the signed-in user may not sign this record (None: they may)."""
+    u = ctx.user
+    if u.role == "technician":
+        return (f"You are signed in as {auth.user_words(u)}: a technician cannot sign a decision. "
+                "A supervisor who did not save this shift may sign it.")
+    if u.role == "administrator":
+        return (f"You are signed in as {auth.user_words(u)}: an administrator manages accounts and "
+                "does not sign releases. A supervisor who did not save this shift may sign it.")
+    if _saver_username(r) == u.username:
+        return (f"You saved this shift, so you cannot also sign its decision (separation of duties). "
+                "A different supervisor may sign it.")
+    return None
+
+
+def reviewer_name(v: Any) -> str:
+    """Who decided: the signer's full name (electronic signature) or the name typed."""
+    return (v.signer_full_name or v.reviewer) if getattr(v, "signed", False) else v.reviewer
+
+
+def _trail_signature(v: Any) -> str:
+    """One line saying whether a review is an electronic signature, and whose."""
+    if getattr(v, "signed", False):
+        return (f"Electronically signed by **{common.md(v.signer_full_name)}** ({common.md(v.signer_username)}), "
+                f"meaning *{common.md(v.meaning)}*, at {_when(v.signed_at_utc)}; signs analysis SHA-256 "
+                f"`{v.analysis_sha256}`.")
+    return "Recorded in single-user mode (a typed name): not an electronic signature."
 
 
 def _decision_form(s: HistoryStore, r: AnalysisRecord) -> None:
-    st.subheader("Decision")
+    ctx = auth.current()
+    st.subheader("Decision — electronic signature" if ctx.team else "Decision")
     prev = r.latest_review
     if prev is not None:
-        st.caption(f"Already decided ({DECISION_LABELS.get(prev.decision, prev.decision)} by {prev.reviewer}). "
-                   f"A new decision is recorded as a correction that replaces review #{prev.id}.")
-    with st.form(f"rs_review_form_{r.id}"):
-        c1, c2 = st.columns([1, 2])
-        c1.text_input("Reviewer (your name) *", key="rs_reviewer")
-        c2.radio("Decision *", list(DECISION_LABELS), key="rs_decision", horizontal=True,
-                 format_func=DECISION_LABELS.get,
+        st.caption(f"Already decided ({DECISION_LABELS.get(prev.decision, prev.decision)} by "
+                   f"{common.md(reviewer_name(prev))}). A new decision is "
+                   f"recorded as a correction that replaces review #{prev.id}.")
+    signer = None
+    if ctx.team:
+        why_not = _refusal(ctx, r)
+        if why_not:
+            st.warning(why_not, icon=common.ICONS["stop"])
+            return
+        signer = ctx.user
+        st.radio("Decision *", list(DECISION_LABELS), key="rs_decision", horizontal=True,
+                 format_func=DECISION_LABELS.get, index=None,
                  help="; ".join(f"{DECISION_LABELS[k]}: {v}" for k, v in DECISIONS.items()))
-        st.text_area("Comment", key="rs_comment", height=90,
-                     placeholder="What you checked and why you decided so (required for hold and reject, and for approve when the checklist says NO)")
-        go_ = st.form_submit_button("Record decision", type="primary")
+        decision = rs.get("rs_decision")
+        with st.container(border=True):
+            if decision in SIGNATURE_MEANING:
+                st.markdown(f"**Meaning of your signature.** {meaning_text(r, decision)}")
+            else:
+                st.markdown("**Meaning of your signature.** Choose a decision above to see what you sign.")
+            st.caption(f"You sign as {auth.user_words(ctx.user)}. The record keeps your name, the meaning, "
+                       "the time (UTC) and the SHA-256 of this analysis record; it is never changed "
+                       "afterwards — a later decision is a new signature that names this one.")
+    problem = rs.get("rs_sign_problem")
+    if problem:  # from the last attempt (shown here, beside the form, not at the top of the page)
+        rs.put("rs_sign_problem", None)
+        st.error(problem, icon=common.ICONS["stop"])
+    with st.form(f"rs_review_form_{r.id}"):
+        if ctx.team:
+            st.text_area("Comment", key="rs_comment", height=90,
+                         placeholder="What you checked and why you decided so (required for hold and reject, "
+                                     "and for approve when the checklist says NO)")
+            st.text_input("Your password (re-enter it to sign) *", type="password",
+                          key=auth.password_key("rs_sign_password"), autocomplete="current-password")
+            go_ = st.form_submit_button("Sign decision", type="primary")
+        else:
+            c1, c2 = st.columns([1, 2])
+            c1.text_input("Reviewer (your name) *", key="rs_reviewer")
+            c2.radio("Decision *", list(DECISION_LABELS), key="rs_decision", horizontal=True,
+                     format_func=DECISION_LABELS.get,
+                     help="; ".join(f"{DECISION_LABELS[k]}: {v}" for k, v in DECISIONS.items()))
+            st.text_area("Comment", key="rs_comment", height=90,
+                         placeholder="What you checked and why you decided so (required for hold and reject, and for approve when the checklist says NO)")
+            st.caption("Single-user mode: the name is recorded as typed; this is not an electronic signature.")
+            go_ = st.form_submit_button("Record decision", type="primary")
     if not go_:
         return
+    password = auth.take_password("rs_sign_password") if ctx.team else None
     try:
         ok, msg = record_decision(s, r, decision=rs.get("rs_decision"), reviewer=rs.get("rs_reviewer"),
-                                  comment=rs.get("rs_comment"))
+                                  comment=rs.get("rs_comment"), signer=signer, password=password)
+    except AuthError as exc:  # wrong password, locked, not allowed: the store says who may sign
+        rs.put("rs_sign_problem", f"Not signed: {common.md(str(exc))}")
+        st.rerun()
     except StoreError as exc:
         st.error(f"Decision not recorded — the history database did not accept it. Nothing already "
-                 f"saved was changed, and your entries are still in the form. {exc}", icon=common.ICONS["stop"])
+                 f"saved was changed, and your entries are still in the form. {common.md(str(exc))}",
+                 icon=common.ICONS["stop"])
         return
+    finally:
+        password = None
     if not ok:
+        if ctx.team:  # a fresh (empty) password field on the rerun
+            rs.put("rs_sign_problem", msg)
+            st.rerun()
         st.error(msg, icon=common.ICONS["stop"])
         return
     rs.flash("success", msg)
@@ -273,6 +398,7 @@ def render() -> None:
         st.info("The history database cannot be opened, so there is nothing to review now.")
         return
     rp.show_database(s)
+    rp.show_chain(s)  # never sign on a record that was changed after it was written
     r = common.guard(_pick, s)
     if r is None:
         return
@@ -285,7 +411,7 @@ def render() -> None:
         if verdict:
             st.caption(verdict)
         for w in r.analysis.get("warnings") or []:
-            st.caption(f"⚑ {w}")
+            st.caption(f"⚑ {common.md(w)}")
     with right:
         ev = evidence_table(r.analysis)
         # a static table wraps long values (chart type, intervals) instead of cutting them off

@@ -77,7 +77,7 @@ def render() -> None:
         return
     name = plots.display_name(a)
     units = a.units
-    u = f" [{units}]" if units else ""
+    u = f" [{common.esc(units)}]" if units else ""  # plotly titles: name and units HTML-escaped
     tr = a.transform
 
     st.markdown(f"**Transform used:** {tr.describe()}")
@@ -87,7 +87,7 @@ def render() -> None:
     st.info(a.transform_reason, icon=":material/lightbulb:")
     if a.transform_choice is not None:
         for note in a.transform_choice.notes:
-            st.caption(f"Note: {note}")
+            st.caption(f"Note: {common.md(note)}")
 
     cap = a.capability
     raw_limits = {"LSL": a.settings.lsl, "USL": a.settings.usl, "Target": a.settings.target}
@@ -132,7 +132,7 @@ def render() -> None:
         if not same:
             st.markdown(f"**After transform:** {a.normality_transformed.verdict}")
         for w in dict.fromkeys(a.normality_raw.warnings + a.normality_transformed.warnings):
-            st.caption(f"⚑ {w}")
+            st.caption(f"⚑ {common.md(w)}")
 
     tbl = ranking_table(a)
     if tbl is not None:

@@ -60,7 +60,7 @@ def violations_table(a) -> pd.DataFrame:
 
 def _limits_row(a) -> None:
     lu, ch = a.limits_units, a.chart
-    u = f" {a.units}" if a.units else ""
+    u = f" {a.units}" if a.units else ""  # st.metric values are plain text
     ucl, lcl = lu.ucl_value, lu.lcl_value
     vary = "varies by subgroup size"
     c1, c2, c3, c4 = st.columns(4)
@@ -72,10 +72,10 @@ def _limits_row(a) -> None:
     c4.metric("Signals", f"{len(ch.violations) + len(ch.dispersion.violations)}")
     for note in (lu.lcl_note, lu.ucl_note):
         if note:
-            st.caption(f"Note: {note}")
+            st.caption(f"Note: {common.md(note)}")
     if a.transform.name != "none" and np.all(np.isfinite([ucl, lcl])):
         st.caption(f"Limits are symmetric on the transformed scale ({a.transform.name}) and therefore "
-                   f"asymmetric in {a.units or 'measurement units'}: centre − LCL = {_fmt(lu.center - lcl)}, "
+                   f"asymmetric in {common.md(a.units) or 'measurement units'}: centre − LCL = {_fmt(lu.center - lcl)}, "
                    f"UCL − centre = {_fmt(ucl - lu.center)}.")
     st.caption(f"Within sigma: {ch.sigma_method}. Chart: {common.chart_words(ch.chart)}, rules: {RULE_LABELS.get(ch.rules, ch.rules)}, "
                f"phase {ch.phase}; {ch.n_used} of {ch.n_values} values used for the limits.")
@@ -149,6 +149,6 @@ def render() -> None:
         st.subheader(f"Signals ({len(vt)})")
         st.dataframe(vt, hide_index=True, width="stretch", height=min(400, 38 + 35 * len(vt)))
     for w in ch.warnings:
-        st.caption(f"⚑ {w}")
+        st.caption(f"⚑ {common.md(w)}")
     common.guard(_exclusion_section, a)
     common.next_step("capability", "Next: 4 · Capability →")

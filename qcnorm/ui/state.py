@@ -31,6 +31,26 @@ qc_rules             "beyond_limits" (default) | "western_electric" | "nelson"
 qc_exclusions        dict {chart point index (0-based): reason} of assignable causes
 qc_exclusions_for    the data identity the exclusions belong to (cleared when it changes)
 qc_last_error        short text of the last error shown on the Load page (for tests/debug)
+
+Who is signed in (team mode; see qcnorm.ui.auth — set there and nowhere else)
+------------------------------------------------------------------------------
+qc_user              the signed-in account, a qcnorm.store.User (id, username, full_name, role,
+                     active), or None: not signed in / single-user mode. Set only by
+                     auth.sign_in() after HistoryStore.authenticate(); re-read from the store
+                     on every run (a disabled account is signed out). Never from a text box.
+qc_ctx               auth.Context of this run (mode "team" | "single" | "no_store" and the user),
+                     worked out by app.py at the start of every run
+qc_auth_flash        one message for the next run of the sign-in flow: (kind, text) or None
+qc_password_round    counter in the key of every password field ("…_<round>"): a used field
+                     is replaced by a fresh, empty one on the next run
+qc_forget            keys of password fields read on this run, dropped at the start of the next
+                     (passwords are never kept longer than the run that uses them)
+qc_signin_username   user name typed on the Sign in page
+qc_signin_password_<round>, rs_sign_password_<round>, qc_acc_password_<round>, qc_acc_password2_<round>
+                     password fields (sign in, signing a decision, new account): not in DEFAULTS,
+                     never kept, never copied
+qc_acc_username, qc_acc_full_name, qc_acc_role, qc_acc_pick, qc_acc_new_role
+                     the Accounts page's fields (new account; the account being changed)
 """
 
 from __future__ import annotations
@@ -85,11 +105,18 @@ DEFAULTS: dict[str, Any] = {
     "qc_exclusions": {},
     "qc_exclusions_for": None,
     "qc_last_error": "",
+    "qc_user": None,
+    "qc_ctx": None,
+    "qc_auth_flash": None,
+    "qc_password_round": 0,
+    "qc_forget": [],
+    "qc_signin_username": "",
 }
 
 # Keys that are not widget values (re-assigning them is harmless but pointless).
 _NOT_WIDGETS = {"qc_source", "qc_exclusions", "qc_exclusions_for", "qc_last_error", "qc_layout",
-                "qc_characteristic", "qc_column"}
+                "qc_characteristic", "qc_column", "qc_user", "qc_ctx", "qc_auth_flash", "qc_password_round",
+                "qc_forget"}
 
 
 def init() -> None:
@@ -97,7 +124,7 @@ def init() -> None:
     ss = st.session_state
     for k, v in DEFAULTS.items():
         if k not in ss:
-            ss[k] = dict(v) if isinstance(v, dict) else v
+            ss[k] = dict(v) if isinstance(v, dict) else list(v) if isinstance(v, list) else v
 
 
 def keep() -> None:
