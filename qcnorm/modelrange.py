@@ -498,6 +498,7 @@ def _decide(figs: list[ModelFigures], cap: Capability) -> ModelRange:
     lo_ppm, hi_ppm = (min(ppms), max(ppms)) if ppms else (None, None)
     side_words = ("above USL" if cap.lsl is None else "below LSL" if cap.usl is None else "outside the limits")
     label = f"{basis.model} ({basis.route} route)"
+    who = "Adequate models" if not fallback else "The models considered"
     if len(pool) == 1 and basis.adequate:
         summary = f"Only one model is adequate ({label}): {_fmt_ppm(lo_ppm)} ppm {side_words}."
     elif len(pool) == 1:
@@ -505,14 +506,14 @@ def _decide(figs: list[ModelFigures], cap: Capability) -> ModelRange:
                    f"transform ({_fmt_ppm(lo_ppm)} ppm {side_words}), which itself does not: treat them as "
                    "approximate.")
     elif model_dependent or (lo_ppm is not None and hi_ppm > 3 * lo_ppm + 1):
-        who = "Adequate models" if not fallback else "The models considered"
         summary = (f"{who} disagree: {_fmt_ppm(lo_ppm)} to {_fmt_ppm(hi_ppm)} ppm {side_words}, "
                    f"Ppk {min(ppks):.2f} to {max(ppks):.2f}. The verdict uses the most pessimistic.")
     else:
         summary = (f"The {len(pool)} adequate models agree: {_fmt_ppm(lo_ppm)} to {_fmt_ppm(hi_ppm)} ppm "
                    f"{side_words}, Ppk {min(ppks):.2f} to {max(ppks):.2f}.")
     if model_dependent:
-        basis_words = (f"Model-dependent: collect more data. The adequate models give different verdicts "
+        basis_words = (f"Model-dependent: collect more data. {who if fallback else 'The adequate models'} give "
+                       f"different verdicts "
                        f"({', '.join(sorted(verdicts, key=_RANK.get))}); the verdict rests on the most "
                        f"pessimistic, {label}, Ppk {basis.ppk:.2f}.")
     else:
@@ -562,7 +563,8 @@ def apply_model_range(cap: Capability, mr: ModelRange) -> Capability:
         "marginal": f"Meets the required {req:.2f} on the point estimate only",
         "fails": f"Does not meet the required {req:.2f}",
     }[mr.verdict]
-    text = (f"{head}: under the most pessimistic adequate model ({name}) {vname} = {point:.2f} "
+    which = "the most pessimistic adequate model" if basis.adequate else "the most pessimistic model considered"
+    text = (f"{head}: under {which} ({name}) {vname} = {point:.2f} "
             f"({pct} lower confidence bound {lb:.2f}); the chosen {cap.transform_name} transform alone "
             f"would say '{cap.route_verdict}' ({cap.verdict_index_name} = {cap.verdict_point:.2f}). "
             f"{mr.summary_text} {mr.verdict_basis}")
