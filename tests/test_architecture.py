@@ -40,7 +40,6 @@ KNOWN_LONG_FUNCTIONS = frozenset({
     "qcnorm/control.py::control_chart",
     "qcnorm/analysis.py::Analysis.to_dict",
     "qcnorm/modelrange.py::model_range",
-    "qcnorm/batch.py::run_batch",
 })
 
 
