@@ -25,7 +25,6 @@ LENGTH_REASON = "Length:"
 
 #: Modules over MAX_MODULE_LINES that are known and being split (issue 11). Shrinks only.
 KNOWN_LARGE_MODULES = frozenset({
-    "qcnorm/transforms.py",
     "qcnorm/control.py",
     "qcnorm/distributions.py",
     "qcnorm/capability.py",
