@@ -219,7 +219,7 @@ def _item_capability(d: Mapping[str, Any]) -> ChecklistItem:
         detail += ": below the requirement."
     mr = cap.get("model_range") or {}
     if mr.get("basis_model") and cap.get("verdict_model") and cap.get("verdict_model") != cap.get("transform_name"):
-        detail += (f" Index from the most pessimistic adequate model ({mr['basis_model']}, {mr.get('basis_route')} "
+        detail += (f" Index from the most pessimistic model considered ({mr['basis_model']}, {mr.get('basis_route')} "
                    f"route); the chosen transform alone says '{cap.get('route_verdict')}'.")
     if mr.get("model_dependent"):
         detail += " Model-dependent: the adequate models disagree; collect more data."

@@ -320,12 +320,20 @@ def model_range(
     -------
     ModelRange
     """
-    from .distributions import percentile_capability
+    lsl, usl = cap.lsl, cap.usl
+    rows = _transform_rows(xs, cap, transform, candidates, chosen_ad_p, chosen_ad_statistic)
+    if distributions is not None:
+        rows.extend(_percentile_rows(xs, lsl, usl, cap, distributions, percentile))
+    return _decide(_adequacy(rows, coarse), cap)
 
+
+def _transform_rows(xs, cap: Capability, transform: Any, candidates: Any,
+                    chosen_ad_p: float | None, chosen_ad_statistic: float | None) -> list[dict[str, Any]]:
+    """One row per fitted transform candidate (the chosen one reuses ``cap``); the chosen
+    transform first when it is not among the candidates (a frozen baseline)."""
     lsl, usl = cap.lsl, cap.usl
     n, req, conf = cap.n, cap.required_index, cap.confidence
     rows: list[dict[str, Any]] = []
-
     # transform route -------------------------------------------------------------------
     seen_chosen = False
     for c in candidates:
@@ -357,23 +365,34 @@ def model_range(
             "ppm_below": cap.ppm_overall_below, "ppm_above": cap.ppm_overall_above,
             "verdict": cap.route_verdict or cap.verdict,
         })
+    return rows
 
+
+def _percentile_rows(xs, lsl, usl, cap: Capability, distributions: Any, percentile: Any) -> list[dict[str, Any]]:
+    """One row per fitted distribution (percentile route); ``percentile`` is reused for the best."""
+    from .distributions import percentile_capability
+
+    n, req, conf = cap.n, cap.required_index, cap.confidence
+    rows: list[dict[str, Any]] = []
     # percentile route ------------------------------------------------------------------
-    if distributions is not None:
-        for f in distributions.fits:
-            pc = percentile if (percentile is not None and f is distributions.best) else \
-                percentile_capability(f, lsl=lsl, usl=usl)
-            sup = distribution_support(f.name, f.params)
-            flagged, fwords = _flags(sup, lsl, usl, xs)
-            lb = _bissell_lower(pc.ppk, n, conf)
-            rows.append({
-                "model": f.name, "route": "percentile", "chosen": False, "aic": f.aic,
-                "ad_statistic": f.ad_statistic, "ad_p_value": f.ad_p_value, "flagged": flagged,
-                "fwords": fwords, "lower_side": pc.lower_side, "upper_side": pc.upper_side,
-                "ppk": pc.ppk, "ppk_lower_bound": lb, "ppm": pc.ppm_expected, "ppm_below": pc.ppm_below,
-                "ppm_above": pc.ppm_above, "verdict": _verdict(pc.ppk, lb, req),
-            })
+    for f in distributions.fits:
+        pc = percentile if (percentile is not None and f is distributions.best) else \
+            percentile_capability(f, lsl=lsl, usl=usl)
+        sup = distribution_support(f.name, f.params)
+        flagged, fwords = _flags(sup, lsl, usl, xs)
+        lb = _bissell_lower(pc.ppk, n, conf)
+        rows.append({
+            "model": f.name, "route": "percentile", "chosen": False, "aic": f.aic,
+            "ad_statistic": f.ad_statistic, "ad_p_value": f.ad_p_value, "flagged": flagged,
+            "fwords": fwords, "lower_side": pc.lower_side, "upper_side": pc.upper_side,
+            "ppk": pc.ppk, "ppk_lower_bound": lb, "ppm": pc.ppm_expected, "ppm_below": pc.ppm_below,
+            "ppm_above": pc.ppm_above, "verdict": _verdict(pc.ppk, lb, req),
+        })
+    return rows
 
+
+def _adequacy(rows: list[dict[str, Any]], coarse: bool) -> list[ModelFigures]:
+    """Each row judged adequate or not (Anderson–Darling and the AIC window), as ModelFigures."""
     # adequacy --------------------------------------------------------------------------
     aics = [r["aic"] for r in rows if r["aic"] is not None and math.isfinite(r["aic"])]
     best_aic = min(aics) if aics else None
@@ -407,7 +426,7 @@ def model_range(
             lower_side=r["lower_side"], upper_side=r["upper_side"], adequate=adequate,
             bound_near_limit=bool(r["flagged"]), verdict=r["verdict"], reason=reason,
         ))
-    return _decide(figs, cap)
+    return figs
 
 
 def _transform_figures(t, xs, lsl, usl, row, n, req, conf) -> dict[str, Any]:
@@ -479,6 +498,7 @@ def _decide(figs: list[ModelFigures], cap: Capability) -> ModelRange:
     lo_ppm, hi_ppm = (min(ppms), max(ppms)) if ppms else (None, None)
     side_words = ("above USL" if cap.lsl is None else "below LSL" if cap.usl is None else "outside the limits")
     label = f"{basis.model} ({basis.route} route)"
+    who = "Adequate models" if not fallback else "The models considered"
     if len(pool) == 1 and basis.adequate:
         summary = f"Only one model is adequate ({label}): {_fmt_ppm(lo_ppm)} ppm {side_words}."
     elif len(pool) == 1:
@@ -486,14 +506,14 @@ def _decide(figs: list[ModelFigures], cap: Capability) -> ModelRange:
                    f"transform ({_fmt_ppm(lo_ppm)} ppm {side_words}), which itself does not: treat them as "
                    "approximate.")
     elif model_dependent or (lo_ppm is not None and hi_ppm > 3 * lo_ppm + 1):
-        who = "Adequate models" if not fallback else "The models considered"
         summary = (f"{who} disagree: {_fmt_ppm(lo_ppm)} to {_fmt_ppm(hi_ppm)} ppm {side_words}, "
                    f"Ppk {min(ppks):.2f} to {max(ppks):.2f}. The verdict uses the most pessimistic.")
     else:
         summary = (f"The {len(pool)} adequate models agree: {_fmt_ppm(lo_ppm)} to {_fmt_ppm(hi_ppm)} ppm "
                    f"{side_words}, Ppk {min(ppks):.2f} to {max(ppks):.2f}.")
     if model_dependent:
-        basis_words = (f"Model-dependent: collect more data. The adequate models give different verdicts "
+        basis_words = (f"Model-dependent: collect more data. {who if fallback else 'The adequate models'} give "
+                       f"different verdicts "
                        f"({', '.join(sorted(verdicts, key=_RANK.get))}); the verdict rests on the most "
                        f"pessimistic, {label}, Ppk {basis.ppk:.2f}.")
     else:
@@ -543,7 +563,8 @@ def apply_model_range(cap: Capability, mr: ModelRange) -> Capability:
         "marginal": f"Meets the required {req:.2f} on the point estimate only",
         "fails": f"Does not meet the required {req:.2f}",
     }[mr.verdict]
-    text = (f"{head}: under the most pessimistic adequate model ({name}) {vname} = {point:.2f} "
+    which = "the most pessimistic adequate model" if basis.adequate else "the most pessimistic model considered"
+    text = (f"{head}: under {which} ({name}) {vname} = {point:.2f} "
             f"({pct} lower confidence bound {lb:.2f}); the chosen {cap.transform_name} transform alone "
             f"would say '{cap.route_verdict}' ({cap.verdict_index_name} = {cap.verdict_point:.2f}). "
             f"{mr.summary_text} {mr.verdict_basis}")

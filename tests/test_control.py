@@ -23,6 +23,7 @@ from qcnorm.control import (
     DEFAULT_RULES,
     MIN_POINTS,
     RULE_SETS,
+    RULES,
     ChartBaseline,
     ControlChart,
     Exclusion,
@@ -352,6 +353,28 @@ def test_each_hand_built_sequence_trips_exactly_its_rule(rule):
 def test_quiet_sequences_trip_nothing(rules, z):
     assert run_rules(z, rules) == ()
     assert _reference_rules(z, rules) == set()
+
+
+def test_rule_table_rows_match_the_published_rules():
+    """The one rule table (qcnorm/control/rules.py): one row per rule, each with the window
+    of its published pattern — Western Electric (1956) handbook: 2 of 3, 4 of 5, 8 in a row;
+    Nelson (1984): tests 2–8 over 9, 6, 14, 3, 5, 15 and 8 points — and a zone form for the
+    false-alarm chain except Nelson's tests 3 and 4, which look at the values themselves."""
+    published = {"L1": 1, "WE1": 1, "WE2": 3, "WE3": 5, "WE4": 8, "N1": 1, "N2": 9, "N3": 6,
+                 "N4": 14, "N5": 3, "N6": 5, "N7": 15, "N8": 8}
+    assert {r.id: r.window for r in RULES} == published
+    cases = {**RULE_CASES, "L1": ("beyond_limits", [0.2, -0.2, -3.5, 0.2], 2, (2,))}
+    assert set(cases) == set(published)  # every row has its hand-built sequence
+    assert {name: tuple(i for i, _ in rows) for name, rows in RULE_SETS.items()} == {
+        name: tuple(r.id for r in RULES if r.rule_set == name) for name in RULE_SETS}
+    assert {r.id for r in RULES if r.zone is None} == {"N3", "N4"}
+    for r in RULES:
+        rules, z, index, points = cases[r.id]
+        assert r.rule_set == rules
+        hit = r(np.asarray(z, dtype=float))
+        assert (hit.ends - hit.starts + 1 == r.window).all()  # the finder looks at `window` points
+        assert index in hit.ends.tolist()
+        assert index - min(points) + 1 <= r.window
 
 
 @pytest.mark.parametrize("rules", list(RULE_SETS))

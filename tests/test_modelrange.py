@@ -188,6 +188,11 @@ def test_case1_fitted_bound_near_usl_does_not_give_meets():
     assert {"models", "ppm_min", "ppm_max", "verdict_basis", "model_dependent"} <= set(jr)
     assert all({"model", "ppm", "ppk", "adequate", "reason"} <= set(r) for r in jr["models"])
     assert d["capability"]["verdict"] == cap.verdict
+    # the words name the basis model's standing truthfully: 'adequate' only if it is
+    basis = next(m for m in mr.models if m.model == mr.basis_model and m.route == mr.basis_route)
+    if not basis.adequate:
+        assert "most pessimistic adequate model" not in cap.verdict_text
+        assert "most pessimistic model considered" in cap.verdict_text
 
 
 def test_case1_explicit_johnson_is_not_trusted_alone():

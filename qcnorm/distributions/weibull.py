@@ -1,0 +1,73 @@
+"""The 2-parameter Weibull family (ML shape by safeguarded Newton)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import stats
+
+from ..errors import DataError
+from ..normality import _vdot
+from ._base import _Bound, _Family, _require_spread
+
+
+def _fit_weibull(xs: np.ndarray) -> dict[str, float]:
+    lx = np.log(xs)
+    lmax = float(lx[-1])
+    l0 = lx - lmax  # ≤ 0, so exp(k·l0) cannot overflow
+    mean_l = float(l0.mean())
+    sd_l = float(l0.std())
+    _require_spread(sd_l, "on the log scale")
+
+    def g_and_dg(k: float) -> tuple[float, float]:
+        # g(k) = Σ z^k ln z / Σ z^k − 1/k − mean(ln z) = 0 is the ML shape equation
+        # (z = x / max x); g is increasing in k.
+        e = np.exp(k * l0)
+        s0 = e.sum()
+        s1 = _vdot(e, l0)
+        s2 = _vdot(e, l0 * l0)
+        g = s1 / s0 - 1.0 / k - mean_l
+        dg = (s2 * s0 - s1 * s1) / (s0 * s0) + 1.0 / (k * k)
+        return g, dg
+
+    # Start: the log of a Weibull variable is Gumbel with sd π/(k√6).
+    k = math.pi / (math.sqrt(6.0) * sd_l)
+    lo, hi = 0.0, math.inf
+    for _ in range(100):
+        g, dg = g_and_dg(k)
+        if g > 0.0:
+            hi = min(hi, k)
+        else:
+            lo = max(lo, k)
+        step = g / dg
+        k_new = k - step
+        if not (lo < k_new < hi):  # keep Newton inside the bracket
+            k_new = 0.5 * (lo + hi) if math.isfinite(hi) else 2.0 * k
+        if abs(k_new - k) <= 1e-13 * k:
+            k = k_new
+            break
+        k = k_new
+    else:  # pragma: no cover - g is monotone, Newton with a bracket converges
+        raise DataError("The Weibull fit did not converge for these data.")
+    log_scale = lmax + math.log(np.mean(np.exp(k * l0))) / k
+    return {"shape": k, "scale": math.exp(log_scale)}
+
+
+def _ll_weibull(xs: np.ndarray, p: dict[str, float]) -> float:
+    k, lam = p["shape"], p["scale"]
+    lz = np.log(xs) - math.log(lam)
+    n = xs.size
+    return float(n * math.log(k) - n * math.log(lam) + (k - 1.0) * lz.sum() - np.exp(k * lz).sum())
+
+
+def _lcs_weibull(xs: np.ndarray, p: dict[str, float]):
+    u = np.exp(p["shape"] * (np.log(xs) - math.log(p["scale"])))
+    return np.log(-np.expm1(-u)), -u
+
+
+WEIBULL = _Family(
+    "Weibull", 2, "positive", _fit_weibull, _ll_weibull, _lcs_weibull,
+    lambda p: _Bound(stats.weibull_min, c=p["shape"], scale=p["scale"]),
+    "maximum likelihood, safeguarded Newton on the shape equation",
+)
