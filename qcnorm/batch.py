@@ -324,22 +324,11 @@ def run_batch(
         worker about eight tasks, at most 64 per task).
     """
     from .batch_input import plan_items
-    from .data import split_units
-    from .engines import choose_engine, run_tasks, scheduler_address
+    from .engines import scheduler_address
 
     t0 = time.perf_counter()
-    if jobs is None or jobs == 0:
-        jobs = os.cpu_count() or 1
-    if not isinstance(jobs, int) or jobs < 0:
-        raise ConfigError(f"jobs must be a whole number ≥ 0 (0 = one per core). Got {jobs!r} instead.")
-    if task_size is not None and (not isinstance(task_size, int) or task_size < 1):
-        raise ConfigError(f"task_size must be a whole number ≥ 1. Got {task_size!r} instead.")
-    for nm, v in (("chunk_rows", chunk_rows), ("chunk_cells", chunk_cells)):
-        if isinstance(v, bool) or not isinstance(v, int) or v < 1:
-            raise ConfigError(f"{nm} must be a whole number ≥ 1. Got {v!r} instead.")
-    if specs is not None and not isinstance(specs, Mapping):
-        specs = read_specs(specs)
-    specs = {_key(k): v for k, v in (specs or {}).items()}
+    jobs = _check_sizes(jobs, task_size, chunk_rows, chunk_cells)
+    specs = _spec_table(specs)
     if pdf_dir is not None:
         Path(pdf_dir).mkdir(parents=True, exist_ok=True)
     if progress is True:
@@ -351,50 +340,93 @@ def run_batch(
     plan = plan_items(source, subgroup=subgroup, sheet=sheet, include_censored=include_censored,
                       read_mode=read_mode, chunk_rows=chunk_rows, chunk_cells=chunk_cells)
     try:
-        total = plan.total
-        size = task_size or max(1, min(64, math.ceil(total / max(1, jobs * 8))))
-        chosen = choose_engine(engine, address, jobs, math.ceil(total / size) if total else 0)
-        if task_size is None:  # in this process, one characteristic per task: progress as each is done
-            task_size = 1 if chosen == "local" else size
         opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda,
                 "zeros": zeros}
-        pdf = None if pdf_dir is None else str(pdf_dir)
-        order: dict[int, BatchRow] = {}
-
-        def tasks():
-            task: list[tuple] = []
-            for idx, (header, item) in enumerate(plan.items):
-                name = split_units(header)[0] or header  # "Ra [µm]" -> "Ra": the name specs use
-                spec = specs.get(_key(name)) or specs.get(_key(header))
-                if isinstance(item, QcnormError):
-                    order[idx] = BatchRow(characteristic=name, error=str(item),
-                                          lsl=spec.lsl if spec else None, usl=spec.usl if spec else None)
-                    continue
-                task.append((idx, name, item, spec))
-                if len(task) >= task_size:
-                    yield (tuple(task), opts, pdf)
-                    task = []
-            if task:
-                yield (tuple(task), opts, pdf)
-
-        if chosen == "pool":
-            from . import analysis  # noqa: F401 - imported once here, inherited by forked workers
-        done = 0
-        if progress:
-            progress(0, total)
-        for task, rows in run_tasks(_analyse_task, tasks(), engine=chosen, jobs=jobs, scheduler=address,
-                                    on_fail=_task_failed):
-            for idx, row in rows:
-                order[idx] = row
-            done = len(order)
-            if progress:
-                progress(done, total)
-        if progress and done < total:
-            progress(len(order), total)
+        order, chosen = _run_plan(plan, specs, opts, None if pdf_dir is None else str(pdf_dir),
+                                  engine=engine, address=address, jobs=jobs, task_size=task_size,
+                                  progress=progress)
     finally:
         plan.close()
+    return BatchResult(rows=_ranked(order), source=str(getattr(source, "name", source))[:200],
+                       seconds=time.perf_counter() - t0, jobs=jobs, engine=chosen)
+
+
+def _check_sizes(jobs: Any, task_size: Any, chunk_rows: Any, chunk_cells: Any) -> int:
+    """The numbers of run_batch checked; returns ``jobs`` with 0 (or None) as one per core."""
+    if jobs is None or jobs == 0:
+        jobs = os.cpu_count() or 1
+    if not isinstance(jobs, int) or jobs < 0:
+        raise ConfigError(f"jobs must be a whole number ≥ 0 (0 = one per core). Got {jobs!r} instead.")
+    if task_size is not None and (not isinstance(task_size, int) or task_size < 1):
+        raise ConfigError(f"task_size must be a whole number ≥ 1. Got {task_size!r} instead.")
+    for nm, v in (("chunk_rows", chunk_rows), ("chunk_cells", chunk_cells)):
+        if isinstance(v, bool) or not isinstance(v, int) or v < 1:
+            raise ConfigError(f"{nm} must be a whole number ≥ 1. Got {v!r} instead.")
+    return jobs
+
+
+def _spec_table(specs: Mapping[str, SpecRow] | str | os.PathLike | None) -> dict[str, SpecRow]:
+    """Spec rows keyed by :func:`_key` (a path is read with :func:`read_specs`)."""
+    if specs is not None and not isinstance(specs, Mapping):
+        specs = read_specs(specs)
+    return {_key(k): v for k, v in (specs or {}).items()}
+
+
+def _run_plan(plan: Any, specs: dict[str, SpecRow], opts: dict, pdf: str | None, *, engine: str,
+              address: str | None, jobs: int, task_size: int | None,
+              progress: Callable[[int, int], None] | None) -> tuple[dict[int, BatchRow], str]:
+    """Group the plan's items into tasks, run them on the chosen engine and collect the rows
+    by their place in the file: ({index: row}, engine name)."""
+    from .engines import choose_engine, run_tasks
+
+    total = plan.total
+    size = task_size or max(1, min(64, math.ceil(total / max(1, jobs * 8))))
+    chosen = choose_engine(engine, address, jobs, math.ceil(total / size) if total else 0)
+    if task_size is None:  # in this process, one characteristic per task: progress as each is done
+        task_size = 1 if chosen == "local" else size
+    order: dict[int, BatchRow] = {}
+    tasks = _tasks(plan.items, specs, order, task_size, opts, pdf)
+    if chosen == "pool":
+        from . import analysis  # noqa: F401 - imported once here, inherited by forked workers
+    done = 0
+    if progress:
+        progress(0, total)
+    for _task, rows in run_tasks(_analyse_task, tasks, engine=chosen, jobs=jobs, scheduler=address,
+                                 on_fail=_task_failed):
+        for idx, row in rows:
+            order[idx] = row
+        done = len(order)
+        if progress:
+            progress(done, total)
+    if progress and done < total:
+        progress(len(order), total)
+    return order, chosen
+
+
+def _tasks(items: Any, specs: dict[str, SpecRow], order: dict[int, BatchRow], task_size: int,
+           opts: dict, pdf: str | None):
+    """Tasks of up to ``task_size`` characteristics, ``(items, opts, pdf_dir)``, lazily; an item
+    that could not be read goes straight into ``order`` as its error row."""
+    from .data import split_units
+
+    task: list[tuple] = []
+    for idx, (header, item) in enumerate(items):
+        name = split_units(header)[0] or header  # "Ra [µm]" -> "Ra": the name specs use
+        spec = specs.get(_key(name)) or specs.get(_key(header))
+        if isinstance(item, QcnormError):
+            order[idx] = BatchRow(characteristic=name, error=str(item),
+                                  lsl=spec.lsl if spec else None, usl=spec.usl if spec else None)
+            continue
+        task.append((idx, name, item, spec))
+        if len(task) >= task_size:
+            yield (tuple(task), opts, pdf)
+            task = []
+    if task:
+        yield (tuple(task), opts, pdf)
+
+
+def _ranked(order: dict[int, BatchRow]) -> tuple[BatchRow, ...]:
+    """Rows in file order, then ranked worst first (:attr:`BatchRow.sort_key`), rank 1 first."""
     rows = [order[i] for i in sorted(order)]
     ranked = sorted(rows, key=lambda r: r.sort_key)
-    ranked = tuple(replace(r, rank=i + 1) for i, r in enumerate(ranked))
-    return BatchResult(rows=ranked, source=str(getattr(source, "name", source))[:200],
-                       seconds=time.perf_counter() - t0, jobs=jobs, engine=chosen)
+    return tuple(replace(r, rank=i + 1) for i, r in enumerate(ranked))

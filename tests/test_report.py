@@ -1,4 +1,4 @@
-"""The PDF summary (qcnorm/report.py) and the release checklist (qcnorm/checklist.py).
+"""The PDF summary (qcnorm/report/) and the release checklist (qcnorm/checklist.py).
 
 What is checked, and against what:
 - the text of the PDF, read back with pypdf (an independent PDF parser), holds every
@@ -197,10 +197,10 @@ def test_fmt_is_the_one_formatting_rule():
 def test_font_falls_back_to_matplotlibs_dejavu(monkeypatch, tmp_path):
     import matplotlib
 
-    import qcnorm.report as report
+    from qcnorm.report import layout
 
-    monkeypatch.setattr(report, "SYSTEM_FONT_DIR", tmp_path / "no-fonts-here")
-    reg, bold = report._font_paths()
+    monkeypatch.setattr(layout, "SYSTEM_FONT_DIR", tmp_path / "no-fonts-here")
+    reg, bold = layout._font_paths()
     assert Path(reg).is_relative_to(Path(matplotlib.get_data_path()))
     assert Path(reg).name == "DejaVuSans.ttf" and Path(bold).name == "DejaVuSans-Bold.ttf"
 
@@ -630,3 +630,22 @@ def test_signed_decision_prints_the_signature_and_single_user_says_it_is_none(ra
 
     unsigned = _flat(_text(build_pdf(ra_analysis, meta=META, review=REVIEW)))
     assert "Not an electronic signature" in unsigned and "Signed by" not in unsigned
+
+
+def test_every_name_of_the_old_module_is_still_importable():
+    """qcnorm/report.py became the package qcnorm/report/ (issue 11): every top-level name
+    the module had, private ones too, is still importable from ``qcnorm.report``."""
+    import qcnorm.report as report
+
+    old = ("CANDIDATE_COLUMNS CAUTION_TEXT CHART_NAMES COLOUR_ROLES NORMALITY_ROWS PAGE_SIZES RULE_NAMES "
+           "ReportMeta SECTION_TITLES SYSTEM_FONT_DIR _BOTTOM _CANDIDATE_NAMES _DASH _DECISION_LABELS _EPOCH "
+           "_FIG_DPI _IN_AXES_LEGEND _LINE _MARGIN _MATPLOTLIB_RC _MEANING_WORDS _REFERENCES _REVIEW_FIELDS "
+           "_SIGNATURE_MEANINGS _STATUS _STYLE_LOCK _Style _View _Writer _check_review _ci _colours "
+           "_creation_date _doc_class _fig_chart _fig_histograms _fig_probability _font_paths _get "
+           "_header_pairs _hist_panel _limit_line _methods _new_figure _png _prob_panel _resolve_meta "
+           "_sec_capability _sec_chart _sec_data _sec_methods _sec_normality _sec_review _sec_transform "
+           "_sec_verdict _sub_model_range _text _utc_text _vline build_pdf fmt write_pdf").split()
+    assert [n for n in old if not hasattr(report, n)] == []
+    assert sorted(report.__all__) == sorted(["ReportMeta", "build_pdf", "write_pdf", "fmt", "SECTION_TITLES",
+                                             "CAUTION_TEXT", "PAGE_SIZES", "NORMALITY_ROWS", "CANDIDATE_COLUMNS",
+                                             "CHART_NAMES", "RULE_NAMES", "COLOUR_ROLES"])
