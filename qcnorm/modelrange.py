@@ -32,9 +32,9 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-from scipy.special import ndtri
 
 from ._results import Result
+from .capability.indices import _bissell_lower as _capability_bissell_lower
 from .capability import Capability, _ppm_sides, distribution_support, side_status, transform_support
 from .transforms import substitute_zero_readings
 
@@ -235,10 +235,10 @@ def bound_margin(xs: np.ndarray, which: str, alpha: float = BOUND_ALPHA) -> floa
 
 
 def _bissell_lower(c: float | None, n: int, confidence: float) -> float | None:
+    """Bissell (1990) lower bound, as capability computes it; None for a missing or infinite index."""
     if c is None or not math.isfinite(c):
         return None
-    z = float(ndtri(confidence))
-    return c - z * math.sqrt(1.0 / (9.0 * n) + c * c / (2.0 * (n - 1)))
+    return _capability_bissell_lower(c, n, confidence)
 
 
 def _verdict(ppk: float | None, lb: float | None, req: float) -> str:
