@@ -13,6 +13,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize, stats
 
+from .lambda_newton import newton_interval, newton_max
+
 #: Search range of the maximum-likelihood λ (Box–Cox and Yeo–Johnson).
 LAMBDA_BOUNDS = (-5.0, 5.0)
 #: ½·χ²(0.95, 1) — drop in log-likelihood at the ends of the 95 % likelihood-ratio interval.
@@ -33,8 +35,9 @@ def _fit_lambda(make_profile, data: np.ndarray, what: str) -> _LambdaFit:
     """Maximise a profile log-likelihood in λ and find its 95 % likelihood-ratio interval.
 
     For n ≤ 20 000 a bounded Brent search over LAMBDA_BOUNDS; above that the search is
-    first localised on an evenly strided subsample and then finished on all values in a
-    narrow bracket (same maximum, far fewer passes over the data).
+    first localised on an evenly strided subsample and then finished on all values: by
+    Newton steps (``lambda_newton``) when the profile gives l' and l'' (``derivs``), else
+    by a bounded search in a narrow bracket (same maximum, far fewer passes over the data).
     """
     lo_b, hi_b = LAMBDA_BOUNDS
     notes: list[str] = []
@@ -49,11 +52,20 @@ def _fit_lambda(make_profile, data: np.ndarray, what: str) -> _LambdaFit:
         hw_full = half * math.sqrt(sub.size / n)  # expected half-width on all values
         a, b = max(lo_b, lam_s - 1.5 * half), min(hi_b, lam_s + 1.5 * half)
         # λ to 1 % of its own standard error is far finer than any use of it needs.
-        lam = _argmax(full, a, b, xatol=max(1e-8, 5e-3 * hw_full))
-        if min(lam - a, b - lam) < 1e-2 * (b - a) and lo_b < lam < hi_b:  # fell on the bracket
-            lam = _argmax(full, lo_b, hi_b, xatol=1e-7)
-        lmax = full(lam)
-        ci = _interval_secant(full, lam, lmax, hw_full)
+        xatol = max(1e-8, 5e-3 * hw_full)
+        # speed: Newton passes with analytic l', l'' where the profile has them (lambda_newton)
+        polished = newton_max(full, lam_s, a, b, xatol) if hasattr(full, "derivs") else None
+        ci = None
+        if polished is not None:
+            lam, lmax, d2 = polished
+            ci = newton_interval(full, lam, lmax, d2, HALF_CHI2_95, LAMBDA_BOUNDS)
+        else:
+            lam = _argmax(full, a, b, xatol=xatol)
+            if min(lam - a, b - lam) < 1e-2 * (b - a) and lo_b < lam < hi_b:  # fell on the bracket
+                lam = _argmax(full, lo_b, hi_b, xatol=1e-7)
+            lmax = full(lam)
+        if ci is None:
+            ci = _interval_secant(full, lam, lmax, hw_full)
     else:
         lam = _argmax(full, lo_b, hi_b, xatol=1e-7)
         lmax = full(lam)

@@ -1,0 +1,179 @@
+"""Newton polish of the maximum-likelihood λ and of its interval on many values.
+
+Used by ``lambda_search._fit_lambda`` above ``_SUBSAMPLE_N`` values for profiles that can
+give l(λ) together with l'(λ) and l''(λ) in one pass (``derivs``): the Box–Cox and
+Yeo–Johnson profiles. The subsample locates λ̂; here a few full passes finish it.
+
+Every power family member is y = ±g(μ; a) with g(μ; a) = (e^{μa} − 1)/μ (a = ln x − mean,
+ln(1 + x) or ln(1 − x); μ = λ or 2 − λ), whose μ-derivatives are
+
+    g' = (a·e^{μa} − g)/μ,    g'' = (a²·e^{μa} − 2g')/μ,
+
+and near μ = 0 (|μ|·max|a| < ``_TAYLOR_Q``, where those quotients lose digits) the series
+g = Σ μ^{k−1}a^k/k!, g' = a²(1/2 + q/3 + q²/8 + q³/30), g'' = a³(1/3 + q/4 + q²/10), q = μa.
+With V = var(y), C = cov(y, y') and l(λ) = −(n/2)·ln V + c(λ), c linear in λ:
+
+    l' = −n·C/V + c',    l'' = −n·[(var(y') + cov(y, y''))/V − 2C²/V²].
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..normality import _vdot
+
+#: Below this |μ|·max|a| the series replaces the quotients (truncation below 1e-14 relative in g, g').
+_TAYLOR_Q = 1e-3
+#: Largest number of full passes of either Newton search before giving up (caller falls back).
+_MAX_PASSES = 8
+
+
+class _GBuffers:
+    """Scratch arrays for g, g', g'' and e^{μa} of one data part (allocated once)."""
+
+    def __init__(self, a: np.ndarray) -> None:
+        self.a = a
+        self.amax = float(np.max(np.abs(a))) if a.size else 0.0
+        self.e = np.empty_like(a)
+        self.g = np.empty_like(a)
+        self.g1 = np.empty_like(a)
+        self.g2 = np.empty_like(a)
+
+    def fill(self, mu: float, order: int) -> None:
+        """g, g' (and g'' when order == 2) at μ into the buffers."""
+        a, e, g, g1, g2 = self.a, self.e, self.g, self.g1, self.g2
+        if a.size == 0:
+            return
+        if abs(mu) * self.amax < _TAYLOR_Q:
+            np.multiply(a, mu, out=e)  # q
+            # g = a·(1 + q/2 + q²/6 + q³/24 + q⁴/120)
+            np.multiply(e, 1.0 / 120.0, out=g)
+            for c in (1.0 / 24.0, 1.0 / 6.0, 0.5, 1.0):
+                g += c
+                if c != 1.0:
+                    g *= e
+            g *= a
+            # g' = a²·(1/2 + q/3 + q²/8 + q³/30)
+            np.multiply(e, 1.0 / 30.0, out=g1)
+            for c in (1.0 / 8.0, 1.0 / 3.0, 0.5):
+                g1 += c
+                if c != 0.5:
+                    g1 *= e
+            g1 *= a
+            g1 *= a
+            if order == 2:  # g'' = a³·(1/3 + q/4 + q²/10)
+                np.multiply(e, 0.1, out=g2)
+                g2 += 0.25
+                g2 *= e
+                g2 += 1.0 / 3.0
+                g2 *= a
+                g2 *= a
+                g2 *= a
+            return
+        np.multiply(a, mu, out=e)
+        np.exp(e, out=e)
+        np.subtract(e, 1.0, out=g)
+        g /= mu
+        np.multiply(a, e, out=e)  # a·e^{μa}
+        np.subtract(e, g, out=g1)
+        g1 /= mu
+        if order == 2:
+            np.multiply(a, e, out=g2)  # a²·e^{μa}
+            g2 -= g1
+            g2 -= g1
+            g2 /= mu
+
+
+def profile_derivs(parts, n: int, order: int) -> tuple[float, float, float] | None:
+    """(ln V, −n·C/V, l'' ) of y built from ``parts`` = [(buffers, sign, dmu)], each filled at
+    its μ: y = sign·g, y' = sign·dmu·g', y'' = sign·g'' (dmu = dμ/dλ = ±1). The caller adds
+    its linear term c(λ). None when a moment is not finite or V ≤ 0. The g buffers are left
+    holding g − sign·ȳ (sign·deviation)."""
+    ybar = sum(sg * float(b.g.sum()) for b, sg, _ in parts if b.a.size) / n
+    V = C = S1 = S11 = S2 = 0.0
+    for b, sg, dm in parts:
+        if b.a.size == 0:
+            continue
+        h = b.g
+        h -= sg * ybar  # y − ȳ = sign·h
+        V += _vdot(h, h)
+        C += dm * _vdot(h, b.g1)
+        if order == 2:
+            S1 += sg * dm * float(b.g1.sum())
+            S11 += _vdot(b.g1, b.g1)
+            S2 += _vdot(h, b.g2)
+    V /= n
+    C /= n
+    if not (V > 0 and math.isfinite(V) and math.isfinite(C)):
+        return None
+    d2l = math.nan
+    if order == 2:
+        var1 = S11 / n - (S1 / n) ** 2
+        d2l = -n * ((var1 + S2 / n) / V - 2.0 * C * C / (V * V))
+        if not math.isfinite(d2l):
+            return None
+    return math.log(V), -n * C / V, d2l
+
+
+def newton_max(prof, lam: float, a: float, b: float, tol: float) -> tuple[float, float, float] | None:
+    """Maximise l(λ) by Newton steps from ``lam`` inside (a, b).
+
+    Stops when the step is below ``tol``, or when the error left after it, estimated as
+    |l'''/(2l'')|·step² with l''' from the last two passes, is below tol/10 (and the step at
+    most half the one before); the λ after that
+    step is returned with l there from the quadratic model (l + ½·l'·step) and l''. None
+    when a pass is not finite, l'' ≥ 0, a step leaves (a, b) or no convergence: the caller
+    then falls back to the bounded search.
+    """
+    prev: tuple[float, float, float] | None = None  # (λ, l'', step) of the last pass
+    for _ in range(_MAX_PASSES):
+        r = prof.derivs(lam, 2)
+        if r is None:
+            return None
+        ll, d1, d2 = r
+        if not d2 < 0:
+            return None
+        step = -d1 / d2
+        new = lam + step
+        if not a < new < b:
+            return None
+        done = abs(step) < tol
+        if not done and prev is not None and lam != prev[0]:
+            d3 = (d2 - prev[1]) / (lam - prev[0])
+            done = (abs(d3 / (2.0 * d2)) * step * step < 0.1 * tol  # converging quadratically
+                    and abs(step) < 0.5 * abs(prev[2]))
+        if done:
+            return new, ll + 0.5 * d1 * step, d2
+        prev, lam = (lam, d2, step), new
+    return None
+
+
+def newton_interval(prof, lam: float, lmax: float, d2: float, half_chi2: float,
+                    bounds: tuple[float, float]) -> tuple[float, float] | None:
+    """{λ : l(λ) ≥ lmax − half_chi2} by Newton steps on each side, from the quadratic
+    guess λ̂ ± √(2·half_chi2/−l''). An end is taken once the residual predicted after the
+    step, ½·|l''|·step², is below 1e-6 (the bracketing search accepts |l − target| < 1e-4).
+    None when a pass fails, the slope has the wrong sign or an end leaves ``bounds``."""
+    target = lmax - half_chi2
+    ends = []
+    for sign in (-1.0, 1.0):
+        x = lam + sign * math.sqrt(2.0 * half_chi2 / -d2)
+        for _ in range(_MAX_PASSES):
+            if not bounds[0] < x < bounds[1]:
+                return None
+            r = prof.derivs(x, 1)
+            if r is None or not sign * r[1] < 0:
+                return None
+            step = -(r[0] - target) / r[1]
+            if 0.5 * abs(d2) * step * step < 1e-6:
+                x += step
+                if not bounds[0] < x < bounds[1]:
+                    return None
+                ends.append(x)
+                break
+            x += step
+        else:
+            return None
+    return ends[0], ends[1]
