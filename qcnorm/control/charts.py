@@ -192,6 +192,12 @@ def _dispersion_limits(
     1 − DISPERSION_ALPHA quantile of the statistic, LCL 0 (no lower signal).
     """
     if chart == "individuals":
+        # speed: one size (2) for every point, so whole-array fills (the same numbers)
+        c, spread, m = d2(2), 3.0 * d3(2), sizes.size
+        if kind == "probability":
+            return (np.full(m, c * sigma), np.full(m, dispersion_probability_limit("range", 2) * sigma),
+                    np.full(m, 0.0))
+        return np.full(m, c * sigma), np.full(m, (c + spread) * sigma), np.full(m, max(0.0, c - spread) * sigma)
         k = np.full(sizes.size, 2)
         kinds = np.array([2])
     else:
@@ -286,7 +292,10 @@ class _Estimate:
 def _phase_one(chart: str, g: _Groups, ex: np.ndarray, disp: np.ndarray, used: np.ndarray,
                unit: str, warnings: list[str]) -> _Estimate:
     """Centre (mean of the values not excluded) and within sigma estimated from these data."""
-    center = float(np.sum(g.points[~ex] * g.sizes[~ex]) / np.sum(g.sizes[~ex]))
+    if ex.any():
+        center = float(np.sum(g.points[~ex] * g.sizes[~ex]) / np.sum(g.sizes[~ex]))
+    else:  # speed: the same sums without the masked copies
+        center = float(np.sum(g.points * g.sizes) / np.sum(g.sizes))
     sigma, method = _estimate_sigma(chart, g, ex, disp, used)
     if not sigma > 0:
         what = (
@@ -447,8 +456,9 @@ def control_chart(
     ex = _exclusion_mask(excluded, g.points.size, unit)
     warnings: list[str] = []
 
-    # Values not excluded, for the overall statistics.
-    kept_values = yv[~ex if g.codes is None else ~ex[g.codes]]
+    # Values not excluded, for the overall statistics (speed: no copy when none is).
+    any_ex = bool(ex.any())
+    kept_values = yv[~ex if g.codes is None else ~ex[g.codes]] if any_ex else yv
     n_used = int(kept_values.size)
 
     disp, used = _dispersion_values(chart, g, ex)
@@ -458,7 +468,10 @@ def control_chart(
         est = _phase_two(chart, g, baseline, warnings)
     _subgroup_warnings(chart, g, excluded, unit, warnings)
 
-    sigma_points = est.sigma / np.sqrt(g.sizes.astype(np.float64))
+    if chart == "individuals":  # speed: σ/√1 = σ for every point (same numbers)
+        sigma_points = np.full(g.points.size, est.sigma / 1.0)
+    else:
+        sigma_points = est.sigma / np.sqrt(g.sizes.astype(np.float64))
     violations = run_rules((g.points - est.center) / sigma_points, rules, excluded=ex)
     dispersion = _dispersion_chart(chart, g, est.sigma, disp, used, rules)
     return ControlChart(
@@ -483,5 +496,6 @@ def control_chart(
         in_control=not violations and not dispersion.violations,
         sigma_method=est.method,
         warnings=tuple(warnings),
-        false_alarm=false_alarm_rate(rules, int((~ex).sum()), chart=chart, subgroup_sizes=g.sizes[~ex]),
+        false_alarm=false_alarm_rate(rules, int((~ex).sum()), chart=chart,
+                                     subgroup_sizes=g.sizes[~ex] if any_ex else g.sizes),
     )

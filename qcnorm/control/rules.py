@@ -357,8 +357,11 @@ def run_rules(z: Any, rules: str = "beyond_limits", *, excluded: Any = None) -> 
                 f"Got {ex.size} instead."
             )
         keep &= ~ex
-    orig = np.flatnonzero(keep)
-    zc = zz[keep]
+    if keep.all():  # speed: nothing to drop, so no mask index or copy (same points)
+        orig, zc = np.arange(zz.size), zz
+    else:
+        orig = np.flatnonzero(keep)
+        zc = zz[keep]
     if zc.size == 0:
         return ()
 

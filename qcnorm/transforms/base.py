@@ -144,6 +144,10 @@ class Transform:
         arr = as_float_array(y, "y", f"{type(self).__name__}.inverse_transform")
         lo, hi = self.image
         dom = self.domain
+        if arr.size > 1 and lo < arr.min() and arr.max() < hi:  # NaN fails both tests
+            # speed: every value strictly inside the image: no masks or copies (same numbers)
+            with np.errstate(all="ignore"):
+                return np.clip(self._inverse_inside(arr), dom.low, dom.high)
         out = np.full(arr.shape, np.nan)
         below = arr <= lo
         above = arr >= hi
