@@ -28,6 +28,7 @@ from .transforms import (
     spread_level,
     substitute_zero_readings,
 )
+from .transforms.base import _SharedLogs
 
 __all__ = ["CandidateFit", "TransformChoice", "ZeroHandling", "choose_transform", "gauge_zero_step",
            "SIMPLICITY_ORDER", "AIC_MARGIN", "ZERO_CHOICES"]
@@ -198,38 +199,39 @@ def _resolve(candidates: str | Sequence[str]) -> tuple[tuple[str, ...], bool]:
 
 
 def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = None,
-              zero_limit: float | None = None) -> CandidateFit:
+              zero_limit: float | None = None, seen: dict | None = None) -> CandidateFit:
     """Scores of a fitted transform on the sorted sample ``xs``; ``ad_out[family]`` gets
     ``(t, ADResult of T(xs), T(xs) itself, ascending)`` when a dict is given (reused by analyze()). With
-    ``zero_limit`` the readings of 0 are scored as censored (see choose_transform Notes)."""
-    from .normality import AD_MIN_N, _vdot, anderson_darling
-    from .normality.anderson import _ad_from_sorted
+    ``zero_limit`` the readings of 0 are scored as censored (see choose_transform Notes).
+    ``seen`` (private) maps id(T(xs)) to its moments and A² for a candidate whose T(xs) is the
+    very array of an earlier one (Box–Cox at λ = 0 and the log both give the shared ln x)."""
+    from .normality import _vdot
 
     n = xs.size
     xt = substitute_zero_readings(t, xs)  # log/Box–Cox fitted with zero readings: their stand-in
     # The fit has already checked that every value lies in the transform's domain, so
     # the public transform()/log_jacobian() checks are skipped here (same numbers).
+    shared = getattr(t, "_shared_forward_jac", None)
+    fj = shared(xt) if shared is not None and zero_limit is None else None  # speed: shared ln x
     with np.errstate(all="ignore"):
-        ty = t._forward(xt)  # increasing, so still sorted
-        log_jac_sum = float(t._log_jac(xt).sum()) if zero_limit is None else math.nan
-    mu = float(ty.mean())
-    dev = ty - mu
-    m2 = _vdot(dev, dev) / n
-    if not (m2 > 0 and math.isfinite(m2)):
-        raise DataError("the transformed values have no spread")
+        ty = t._forward(xt) if fj is None else fj[0]  # increasing, so still sorted
+        if zero_limit is not None:
+            log_jac_sum = math.nan
+        else:
+            log_jac_sum = float((t._log_jac(xt) if fj is None else fj[1]).sum())
+    hit = None if seen is None else seen.get(id(ty))
+    if hit is not None and hit[0] is ty:
+        m2, skew, ad = hit[1:]
+    else:
+        m2, skew, ad = _scores(ty, n, _vdot)
+        if seen is not None:
+            seen[id(ty)] = (ty, m2, skew, ad)
     if zero_limit is None:
         # ln L of the original data = Σ ln φ(T(x); μ̂, σ̂) + Σ ln T'(x), μ̂, σ̂ the MLE of T(x).
         loglik = -0.5 * n * (math.log(2.0 * math.pi * m2) + 1.0) + log_jac_sum
     else:
         loglik = _censored_loglik(t, xs, zero_limit)
     k = t.n_model_params
-    skew = _vdot(dev * dev, dev) / n / m2**1.5
-    if n >= AD_MIN_N and bool(np.all(ty[1:] >= ty[:-1])):
-        # speed: ty is finite with spread (m2 checked above) and in order, so the public
-        # function's checks and its x − x̄ pass are skipped (the same deviations, same A²)
-        ad = _ad_from_sorted(ty, dev)
-    else:
-        ad = anderson_darling(ty, presorted=True)  # its own message for what is wrong
     if ad_out is not None:
         ad_out[family] = (t, ad, ty)
     return CandidateFit(
@@ -237,6 +239,26 @@ def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = N
         delta_aic=math.nan, ad_statistic=float(ad.statistic), ad_p_value=float(ad.p_value),
         skewness_after=skew, error=None, n_params=k, description=t.describe(), transform=t,
     )
+
+
+def _scores(ty: np.ndarray, n: int, _vdot) -> tuple[float, float, Any]:
+    """m₂, skewness g₁ and the Anderson–Darling result of the sorted transformed sample."""
+    from .normality import AD_MIN_N, anderson_darling
+    from .normality.anderson import _ad_from_sorted
+
+    mu = float(ty.mean())
+    dev = ty - mu
+    m2 = _vdot(dev, dev) / n
+    if not (m2 > 0 and math.isfinite(m2)):
+        raise DataError("the transformed values have no spread")
+    skew = _vdot(dev * dev, dev) / n / m2**1.5
+    if n >= AD_MIN_N and bool(np.all(ty[1:] >= ty[:-1])):
+        # speed: ty is finite with spread (m2 checked above) and in order, so the public
+        # function's checks and its x − x̄ pass are skipped (the same deviations, same A²)
+        ad = _ad_from_sorted(ty, dev)
+    else:
+        ad = anderson_darling(ty, presorted=True)  # its own message for what is wrong
+    return m2, skew, ad
 
 
 def _censored_loglik(t: Transform, xs: np.ndarray, c: float) -> float:
@@ -417,6 +439,7 @@ def choose_transform(
     zero_limit = zh.limit if zh.method == "censored" else None
     fits: list[CandidateFit] = []
     auto = isinstance(candidates, str) and candidates == "auto"
+    logs, seen = _SharedLogs(xs), {}  # speed: ln x / ln(1 + x) and repeated T(x) scored once
     for fam in names:
         if auto and fam == "johnson" and xs.size < JOHNSON_AUTO_MIN_N:
             fits.append(_failed(fam, f"not tried automatically below {JOHNSON_AUTO_MIN_N} values (its "
@@ -426,9 +449,10 @@ def choose_transform(
         if zero_limit is not None and fam in ("log", "boxcox"):
             opts["zero_limit"] = zero_limit
         t = make_transform(fam, **opts)
+        t._shared_logs = logs  # type: ignore[attr-defined]  # lent for the fit and the scoring only
         try:
             t.fit(xs)  # sorted values: same fit, and Johnson skips its own sort
-            fits.append(_evaluate(fam, t, xs, _ad_out, zero_limit=zero_limit))
+            fits.append(_evaluate(fam, t, xs, _ad_out, zero_limit=zero_limit, seen=seen))
         except QcnormError as exc:
             if single:
                 raise
@@ -436,6 +460,8 @@ def choose_transform(
             if zh.method == "excluded" and fam in ("log", "boxcox"):
                 reason += " (the 0 readings look rounded from small values: zeros='censor' would fit them)"
             fits.append(_failed(fam, reason))
+        finally:
+            del t._shared_logs
     ok = [c for c in fits if c.ok]
     if not ok:
         raise DataError(

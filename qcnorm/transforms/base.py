@@ -88,6 +88,37 @@ def _is_number(v: Any) -> bool:
     return isinstance(v, (int, float, np.integer, np.floating)) and not isinstance(v, bool) and math.isfinite(v)
 
 
+class _SharedLogs:
+    """ln x and ln(1 + x) of one sorted sample, computed once for all the candidates of
+    ``selection.choose_transform`` (private speed plumbing; set as ``t._shared_logs``).
+
+    ``get(x, kind)`` gives np.log(x) ("log", only when every x > 0) or np.log1p(x) ("log1p",
+    only when every x ≥ 0) — the very arrays the families would compute — when ``x`` is that
+    sample; else None, and the family computes its own. The arrays are read-only.
+    """
+
+    def __init__(self, xs: np.ndarray) -> None:
+        self.xs = xs
+        self._ok = {"log": bool(xs.size and xs[0] > 0), "log1p": bool(xs.size and xs[0] >= 0)}
+        self._arrays: dict[str, np.ndarray] = {}
+
+    def get(self, x: np.ndarray, kind: str) -> np.ndarray | None:
+        if x is not self.xs or not self._ok[kind]:
+            return None
+        a = self._arrays.get(kind)
+        if a is None:
+            a = np.log(x) if kind == "log" else np.log1p(x)
+            a.flags.writeable = False
+            self._arrays[kind] = a
+        return a
+
+
+def _shared_log(t: Any, x: np.ndarray, kind: str) -> np.ndarray | None:
+    """``t._shared_logs.get(x, kind)`` when choose_transform lent one, else None."""
+    sl = getattr(t, "_shared_logs", None)
+    return None if sl is None else sl.get(x, kind)
+
+
 # --------------------------------------------------------------------------- base class
 
 

@@ -11,7 +11,7 @@ from scipy import optimize
 
 from ..errors import ConfigError, DataError
 from ..normality import _vdot
-from .base import MIN_N, Domain, Transform, _fmt, _is_number
+from .base import MIN_N, Domain, Transform, _fmt, _is_number, _shared_log
 from .zeros import _check_zero_limit, _fit_with_zero_readings, _restore_zero_value, _set_zero_value, _zero_params, _zero_words
 
 
@@ -79,6 +79,11 @@ class Log(Transform):
         else:
             self.shift_ = -float(self.threshold)
         self._raise_outside(x, "fit")
+
+    def _shared_forward_jac(self, x):
+        """(T(x), ln T'(x)) from the shared ln x (same numbers as _forward, _log_jac), or None."""
+        L = _shared_log(self, x, "log") if self.shift_ == 0.0 else None
+        return None if L is None else (L, np.negative(L))
 
     def _forward(self, x):
         return np.log(x + self.shift_)

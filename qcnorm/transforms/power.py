@@ -15,7 +15,7 @@ import numpy as np
 
 from ..errors import ConfigError
 from ..normality import _vdot
-from .base import CONVENIENT_LAMBDAS, LAMBDA_TOL, MIN_N, Domain, Transform, _fmt, _is_number
+from .base import CONVENIENT_LAMBDAS, LAMBDA_TOL, MIN_N, Domain, Transform, _fmt, _is_number, _shared_log
 from .lambda_newton import _GBuffers, profile_derivs
 from .lambda_search import _fit_lambda, _LambdaFit
 from .zeros import _check_zero_limit, _fit_with_zero_readings, _restore_zero_value, _set_zero_value, _zero_params, _zero_words
@@ -257,7 +257,9 @@ class BoxCox(Transform):
         else:
             self.shift_ = float(self.shift)
         self._raise_outside(x, "fit")
-        L = np.log(x + self.shift_)
+        L = _shared_log(self, x, "log") if self.shift_ == 0.0 else None  # speed: ln x shared
+        if L is None:
+            L = np.log(x + self.shift_)
         self._take_lambda(_fit_lambda(_BoxCoxProfile, L, "Box–Cox transform"), notes)
 
     def _take_lambda(self, fit: _LambdaFit, notes: list[str]) -> None:
@@ -272,6 +274,14 @@ class BoxCox(Transform):
             if r is not None:
                 self.lambda_, self.rounded_ = r, True
         self.notes_ = tuple(notes)
+
+    def _shared_forward_jac(self, x):
+        """(T(x), ln T'(x)) from the shared ln x (same numbers as _forward, _log_jac), or None."""
+        L = _shared_log(self, x, "log") if self.shift_ == 0.0 else None
+        if L is None:
+            return None
+        lam = self.lambda_
+        return (L if abs(lam) < LAMBDA_TOL else np.expm1(lam * L) / lam), (lam - 1.0) * L
 
     def _forward(self, x):
         lam = self.lambda_
@@ -363,13 +373,21 @@ class YeoJohnson(Transform):
 
     def _fit(self, x: np.ndarray) -> None:
         if x.min() >= 0:  # then y = Box–Cox of x + 1: same profile, cheaper per λ
-            fit = _fit_lambda(_BoxCoxProfile, np.log1p(x), "Yeo–Johnson transform")
+            lp = _shared_log(self, x, "log1p")  # speed: ln(1 + x) shared with the scoring
+            fit = _fit_lambda(_BoxCoxProfile, np.log1p(x) if lp is None else lp, "Yeo–Johnson transform")
         else:
             fit = _fit_lambda(_YeoJohnsonProfile, x, "Yeo–Johnson transform")
         self.lambda_ = fit.lam
         self.lambda_ci_ = fit.ci
         self.loglik_ = fit.loglik
         self.notes_ = fit.notes
+
+    def _shared_forward_jac(self, x):
+        """(T(x), ln T'(x)) from the shared ln(1 + x), all x ≥ 0 (as _forward, _log_jac), or None."""
+        lp = _shared_log(self, x, "log1p")
+        if lp is None:
+            return None
+        return _yj_pos(lp, self.lambda_), (self.lambda_ - 1.0) * np.sign(x) * lp
 
     def _forward(self, x):
         out = np.empty_like(x)
