@@ -72,18 +72,19 @@ class _GBuffers:
                 g2 *= a
                 g2 *= a
             return
+        inv = 1.0 / mu  # speed: products rather than quotients (rounding-level only)
         np.multiply(a, mu, out=e)
         np.exp(e, out=e)
         np.subtract(e, 1.0, out=g)
-        g /= mu
+        g *= inv
         np.multiply(a, e, out=e)  # a·e^{μa}
         np.subtract(e, g, out=g1)
-        g1 /= mu
+        g1 *= inv
         if order == 2:
             np.multiply(a, e, out=g2)  # a²·e^{μa}
             g2 -= g1
             g2 -= g1
-            g2 /= mu
+            g2 *= inv
 
 
 def profile_derivs(parts, n: int, order: int) -> tuple[float, float, float] | None:
