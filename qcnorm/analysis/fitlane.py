@@ -17,7 +17,7 @@ values, or with ``QCNORM_THREADS=1``, everything runs in the calling thread, in 
 from __future__ import annotations
 
 import os
-from concurrent.futures import Future, ThreadPoolExecutor
+from concurrent.futures import Future
 from typing import Any
 
 import numpy as np
@@ -27,6 +27,7 @@ from ..distributions.fitting import _fit_each, _ranking
 from ..distributions.registry import _FAMILIES
 from ..errors import QcnormError
 from ..selection import gauge_zero_step
+from .board import TaskBoard
 
 __all__ = ["PARALLEL_MIN_N", "DistributionLane", "threads_allowed"]
 
@@ -59,7 +60,7 @@ def threads_allowed(n: int) -> bool:
 
 
 def _fit_group(xs: np.ndarray, names: tuple[str, ...], case3: dict | None, zstep: float | None):
-    """(fits, skipped) of one group, or the QcnormError that stopped it."""
+    """(fits, skipped) of some families, or the QcnormError that stopped them."""
     try:
         return _fit_each(xs, names, case3, zstep)
     except QcnormError as exc:
@@ -67,48 +68,36 @@ def _fit_group(xs: np.ndarray, names: tuple[str, ...], case3: dict | None, zstep
 
 
 class DistributionLane:
-    """The distribution fits of one analyze() call: :meth:`start` before the transform
-    step, :meth:`add_shared` after it, :meth:`finish` when the capability is known."""
+    """The distribution fits of one analyze() call, posted on a :class:`TaskBoard`:
+    :meth:`start` before the transform step, :meth:`add_shared` after it, :meth:`finish`
+    when the capability is known."""
 
-    def __init__(self, xs: np.ndarray, zeros: str, threaded: bool):
+    def __init__(self, xs: np.ndarray, zeros: str, board: TaskBoard):
         self._xs = xs
         # readings of 0 that the gauge rule (selection.gauge_zero_step) calls rounded small
         # values: the positive families take them at h/4 (distributions._fit_each), unless the
         # user asked to keep zeros as zeros
         self._zstep = gauge_zero_step(xs) if zeros == "censor" else None
-        self._pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="qcnorm-fits") if threaded else None
-        self._parts: list[Future | Any] = []
-
-    def _run(self, names: tuple[str, ...], case3: dict | None) -> None:
-        if self._pool is None:
-            self._parts.append(_fit_group(self._xs, names, case3, self._zstep))
-        else:
-            self._parts.append(self._pool.submit(_fit_group, self._xs, names, case3, self._zstep))
+        self._board = board
+        self._parts: list[Future] = []
 
     def start(self) -> None:
-        """Queue the families that need nothing from the other steps."""
-        self._run(_OWN_AD, None)
+        """Post the families that need nothing from the other steps, one task each."""
+        for nm in _OWN_AD:
+            self._parts.append(self._board.post(_fit_group, self._xs, (nm,), None, self._zstep))
 
     def add_shared(self, ads: dict) -> None:
-        """Queue the normal and lognormal fits with the transform step's A² of x and ln x."""
+        """Post the normal and lognormal fits with the transform step's A² of x and ln x."""
         ad_x = ads["none"][1] if "none" in ads else None
         log_c = ads.get("log")  # its A² is that of ln x only without a shift
         ad_ln = log_c[1] if log_c is not None and log_c[0].params_.get("shift") == 0.0 else None
-        self._run(_SHARED_AD, {"normal": ad_x, "lognormal": ad_ln})
-
-    def close(self) -> None:
-        """Stop the thread (pending work is dropped); safe to call twice."""
-        if self._pool is not None:
-            self._pool.shutdown(wait=False, cancel_futures=True)
-            self._pool = None
+        case3 = {"normal": ad_x, "lognormal": ad_ln}
+        self._parts.append(self._board.post(_fit_group, self._xs, _SHARED_AD, case3, self._zstep))
 
     def finish(self, cap, lsl, usl, warnings: list[str]) -> tuple[DistributionRanking | None, Any]:
         """The ranking and the percentile cross-check of the best fit; a failure becomes a
         warning, as in the one-thread route."""
-        try:
-            parts = [p.result() if isinstance(p, Future) else p for p in self._parts]
-        finally:
-            self.close()
+        parts = [f.result() for f in self._board.wait(self._parts)]
         dists: DistributionRanking | None = None
         perc = None
         try:

@@ -9,6 +9,7 @@ import numpy as np
 
 from ..control import DEFAULT_RULES
 from ..transforms import substitute_zero_readings
+from .board import TaskBoard
 from .fitlane import DistributionLane, threads_allowed
 from .inputs import _checked_layout, _checked_limits, _checked_values, _unpack_measurements
 from .results import Analysis, Baseline, Settings
@@ -102,7 +103,8 @@ def analyze(
     warnings: list[str] = list(ingest_warnings)
     ads: dict = {}  # speed: {family: (transform, Anderson–Darling result, T(sorted x))} from choose_transform
     # speed: the distribution fits (step 4b) run as a second lane, in a thread for large n
-    lane = DistributionLane(xs, zeros, threaded=threads_allowed(n))
+    board = TaskBoard(threaded=threads_allowed(n), name="qcnorm-fits")
+    lane = DistributionLane(xs, zeros, board)
     try:
         lane.start()
         choice, tr, reason, phase = _transform_step(x, xs, transform, baseline, lsl, usl, subgroups,
@@ -118,7 +120,7 @@ def analyze(
                                required_index, confidence, warnings)
         dists, perc = lane.finish(cap, lsl, usl, warnings)
     finally:
-        lane.close()
+        board.close()
     if cap is not None and model_range:
         cap = _model_range_step(xs, cap, tr, choice, dists, perc, norm_raw, norm_t, warnings, ads)
     excluded = _excluded_rows(ingest_excluded, ch, row_numbers)
