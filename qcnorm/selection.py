@@ -8,6 +8,7 @@ holding the ranking table, the chosen fitted transform and the reason in plain w
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -325,6 +326,62 @@ def _failed(family: str, reason: str) -> CandidateFit:
     )
 
 
+#: The candidates from the longest to fit to the shortest (a scheduling hint only).
+_COST_ORDER = ("yeojohnson", "boxcox", "johnson", "log", "none")
+
+
+def _run_here(thunks):
+    return [f() for f in thunks]
+
+
+def _fit_and_score(family: str, t: Transform, xs: np.ndarray, zero_limit: float | None):
+    """One candidate, fitted to sorted ``xs`` and scored: ((CandidateFit, A² entry) or the
+    QcnormError that stopped it). Pure: touches nothing but ``t``."""
+    try:
+        t.fit(xs)  # sorted values: same fit, and Johnson skips its own sort
+        out: dict = {}
+        return _evaluate(family, t, xs, out, zero_limit=zero_limit), out[family]
+    except QcnormError as exc:
+        return exc
+
+
+def _fit_candidates(names, xs: np.ndarray, *, auto: bool, single: bool, round_lambda: bool, zh: ZeroHandling,
+                    zero_limit: float | None, run, ad_out: dict | None) -> list[CandidateFit]:
+    """Every candidate fitted and scored (or failed with its reason), in the order of ``names``."""
+    slots: dict[str, Any] = {}
+    for fam in names:
+        if auto and fam == "johnson" and xs.size < JOHNSON_AUTO_MIN_N:
+            slots[fam] = _failed(fam, f"not tried automatically below {JOHNSON_AUTO_MIN_N} values (its "
+                                      "percentile fit rests on the tails); choose it explicitly to fit it")
+            continue
+        opts: dict[str, Any] = {"round_lambda": round_lambda} if fam == "boxcox" else {}
+        if zero_limit is not None and fam in ("log", "boxcox"):
+            opts["zero_limit"] = zero_limit
+        slots[fam] = make_transform(fam, **opts)
+    # ``run`` (private, for analyze()): runs a list of thunks, possibly on two threads
+    # (qcnorm.analysis.board), and returns their results in order. Each candidate is a pure
+    # task, posted longest first; the results are collected in the simplicity order.
+    todo = sorted((f for f, v in slots.items() if not isinstance(v, CandidateFit)), key=_COST_ORDER.index)
+    done = (run or _run_here)([functools.partial(_fit_and_score, f, slots[f], xs, zero_limit) for f in todo])
+    results = dict(zip(todo, done))
+    fits: list[CandidateFit] = []
+    for fam in names:
+        res = results.get(fam, slots[fam])
+        if isinstance(res, QcnormError):
+            if single:
+                raise res
+            reason = _short_reason(fam, res)
+            if zh.method == "excluded" and fam in ("log", "boxcox"):
+                reason += " (the 0 readings look rounded from small values: zeros='censor' would fit them)"
+            res = _failed(fam, reason)
+        elif not isinstance(res, CandidateFit):  # (fit, A² entry)
+            res, ad_entry = res
+            if ad_out is not None:
+                ad_out[fam] = ad_entry
+        fits.append(res)
+    return fits
+
+
 def choose_transform(
     x: Any,
     candidates: str | Sequence[str] = "auto",
@@ -334,6 +391,7 @@ def choose_transform(
     zeros: str = "censor",
     _sorted: np.ndarray | None = None,
     _ad_out: dict | None = None,
+    _run: Any = None,
 ) -> TransformChoice:
     """Fit the candidate transforms, rank them and choose one.
 
@@ -418,27 +476,9 @@ def choose_transform(
     xs = np.sort(arr) if _sorted is None else _sorted
     zh = _zero_handling(xs, zeros)
     zero_limit = zh.limit if zh.method == "censored" else None
-    fits: list[CandidateFit] = []
     auto = isinstance(candidates, str) and candidates == "auto"
-    for fam in names:
-        if auto and fam == "johnson" and xs.size < JOHNSON_AUTO_MIN_N:
-            fits.append(_failed(fam, f"not tried automatically below {JOHNSON_AUTO_MIN_N} values (its "
-                                     "percentile fit rests on the tails); choose it explicitly to fit it"))
-            continue
-        opts: dict[str, Any] = {"round_lambda": round_lambda} if fam == "boxcox" else {}
-        if zero_limit is not None and fam in ("log", "boxcox"):
-            opts["zero_limit"] = zero_limit
-        t = make_transform(fam, **opts)
-        try:
-            t.fit(xs)  # sorted values: same fit, and Johnson skips its own sort
-            fits.append(_evaluate(fam, t, xs, _ad_out, zero_limit=zero_limit))
-        except QcnormError as exc:
-            if single:
-                raise
-            reason = _short_reason(fam, exc)
-            if zh.method == "excluded" and fam in ("log", "boxcox"):
-                reason += " (the 0 readings look rounded from small values: zeros='censor' would fit them)"
-            fits.append(_failed(fam, reason))
+    fits = _fit_candidates(names, xs, auto=auto, single=single, round_lambda=round_lambda, zh=zh,
+                           zero_limit=zero_limit, run=_run, ad_out=_ad_out)
     ok = [c for c in fits if c.ok]
     if not ok:
         raise DataError(

@@ -108,7 +108,7 @@ def analyze(
     try:
         lane.start()
         choice, tr, reason, phase = _transform_step(x, xs, transform, baseline, lsl, usl, subgroups,
-                                                    round_lambda, zeros, ads)
+                                                    round_lambda, zeros, ads, run=board.run_all)
         lane.add_shared(ads)
         # A log/Box–Cox fitted with readings of 0 as censored values (or a baseline frozen from
         # one) places each such reading at its fitted stand-in value; x itself is kept as read.

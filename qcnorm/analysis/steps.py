@@ -51,9 +51,10 @@ def _best_spec_compatible(choice: TransformChoice, lsl: float | None, usl: float
 
 
 def _transform_step(x, xs, transform, baseline: Baseline | None, lsl, usl, subgroups, round_lambda, zeros,
-                    ads: dict):
+                    ads: dict, run=None):
     """1. Transform: chosen, requested, or frozen in a baseline. Returns (choice or None,
-    transform, reason, phase); fills ``ads`` with the candidates' Anderson–Darling results."""
+    transform, reason, phase); fills ``ads`` with the candidates' Anderson–Darling results.
+    ``run`` runs the candidates' fits (a TaskBoard's run_all: two threads at large n)."""
     n = x.size
     choice: TransformChoice | None = None
     phase = "I"
@@ -67,7 +68,7 @@ def _transform_step(x, xs, transform, baseline: Baseline | None, lsl, usl, subgr
     else:
         cands = "auto" if transform == "auto" else transform
         choice = choose_transform(x, candidates=cands, subgroups=subgroups, round_lambda=round_lambda,
-                                  zeros=zeros, _sorted=xs, _ad_out=ads)
+                                  zeros=zeros, _sorted=xs, _ad_out=ads, _run=run)
         tr = choice.transform
         reason = choice.reason
         if transform == "auto" and _spec_beyond_fitted_bound(tr, lsl, usl):
