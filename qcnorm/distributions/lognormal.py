@@ -10,26 +10,32 @@ from scipy.optimize import brentq
 
 from ..errors import DataError
 from ..normality import _log_phi_pair_sorted, _vdot
-from ._base import _LN_2PI, _Bound, _Family, _normal_ml, _require_spread
+from ._base import _LN_2PI, _Bound, _Family, _normal_ml, _require_spread, _Sample
 
 # lognormal (2-parameter) -----------------------------------------------------------------
 
 
-def _fit_lognormal(xs: np.ndarray) -> dict[str, float]:
-    mu, sigma = _normal_ml(np.log(xs))
+def _fit_lognormal(s: _Sample) -> dict[str, float]:
+    mu, sigma = _normal_ml(s.lx)
     _require_spread(sigma, "on the log scale")
     return {"mu": mu, "sigma": sigma}
 
 
-def _ll_lognormal(xs: np.ndarray, p: dict[str, float]) -> float:
-    lx = np.log(xs - p.get("threshold", 0.0))
-    z = (lx - p["mu"]) / p["sigma"]
-    n = xs.size
+def _z(s: _Sample, p: dict[str, float]) -> np.ndarray:
+    """(ln(x − θ) − μ)/σ, shared by the log-likelihood and A²."""
+    th = p.get("threshold", 0.0)
+    return s.memo(("z", th, p["mu"], p["sigma"]), lambda: (s.log_shifted(th) - p["mu"]) / p["sigma"])
+
+
+def _ll_lognormal(s: _Sample, p: dict[str, float]) -> float:
+    lx = s.log_shifted(p.get("threshold", 0.0))
+    z = _z(s, p)
+    n = s.xs.size
     return float(-0.5 * n * _LN_2PI - n * math.log(p["sigma"]) - 0.5 * _vdot(z, z) - lx.sum())
 
 
-def _lcs_lognormal(xs: np.ndarray, p: dict[str, float]):
-    return _log_phi_pair_sorted((np.log(xs - p.get("threshold", 0.0)) - p["mu"]) / p["sigma"])
+def _lcs_lognormal(s: _Sample, p: dict[str, float]):
+    return _log_phi_pair_sorted(_z(s, p))
 
 
 def _frozen_lognormal(p: dict[str, float]):
@@ -74,7 +80,8 @@ def _ln3_root(xs: np.ndarray, log_d: np.ndarray, xtol: float) -> float | None:
 _LN3_THIN = 20_000
 
 
-def _fit_lognormal3(xs: np.ndarray) -> dict[str, float]:
+def _fit_lognormal3(s: _Sample) -> dict[str, float]:
+    xs = s.xs
     x1 = float(xs[0])
     spread = float(xs[-1] - xs[0])
     if not spread > 0.0:
@@ -101,7 +108,7 @@ def _fit_lognormal3(xs: np.ndarray) -> dict[str, float]:
             "distribution. Use the normal or 2-parameter lognormal fit instead."
         )
     theta = x1 - math.exp(root)
-    mu, sigma = _normal_ml(np.log(xs - theta))
+    mu, sigma = _normal_ml(s.log_shifted(theta))
     return {"mu": mu, "sigma": sigma, "threshold": theta}
 
 

@@ -9,16 +9,17 @@ from scipy import stats
 
 from ..errors import DataError
 from ..normality import _vdot
-from ._base import _Bound, _Family, _require_spread
+from ._base import _Bound, _Family, _log_cdf_from_neg_u, _require_spread, _Sample
 
 
-def _fit_weibull(xs: np.ndarray) -> dict[str, float]:
-    lx = np.log(xs)
+def _fit_weibull(s: _Sample) -> dict[str, float]:
+    lx = s.lx
     lmax = float(lx[-1])
     l0 = lx - lmax  # ≤ 0, so exp(k·l0) cannot overflow
     mean_l = float(l0.mean())
     sd_l = float(l0.std())
     _require_spread(sd_l, "on the log scale")
+    l0_sq = l0 * l0  # (ln z)², formed once for all Newton steps
 
     def g_and_dg(k: float) -> tuple[float, float]:
         # g(k) = Σ z^k ln z / Σ z^k − 1/k − mean(ln z) = 0 is the ML shape equation
@@ -26,7 +27,7 @@ def _fit_weibull(xs: np.ndarray) -> dict[str, float]:
         e = np.exp(k * l0)
         s0 = e.sum()
         s1 = _vdot(e, l0)
-        s2 = _vdot(e, l0 * l0)
+        s2 = _vdot(e, l0_sq)
         g = s1 / s0 - 1.0 / k - mean_l
         dg = (s2 * s0 - s1 * s1) / (s0 * s0) + 1.0 / (k * k)
         return g, dg
@@ -54,16 +55,27 @@ def _fit_weibull(xs: np.ndarray) -> dict[str, float]:
     return {"shape": k, "scale": math.exp(log_scale)}
 
 
-def _ll_weibull(xs: np.ndarray, p: dict[str, float]) -> float:
+def _lz_u(s: _Sample, p: dict[str, float]) -> tuple[np.ndarray, np.ndarray]:
+    """ln(x/λ) and u = (x/λ)^k, shared by the log-likelihood and A²."""
     k, lam = p["shape"], p["scale"]
-    lz = np.log(xs) - math.log(lam)
-    n = xs.size
-    return float(n * math.log(k) - n * math.log(lam) + (k - 1.0) * lz.sum() - np.exp(k * lz).sum())
+
+    def make():
+        lz = s.lx - math.log(lam)
+        return lz, np.exp(k * lz)
+
+    return s.memo(("weibull", k, lam), make)
 
 
-def _lcs_weibull(xs: np.ndarray, p: dict[str, float]):
-    u = np.exp(p["shape"] * (np.log(xs) - math.log(p["scale"])))
-    return np.log(-np.expm1(-u)), -u
+def _ll_weibull(s: _Sample, p: dict[str, float]) -> float:
+    k, lam = p["shape"], p["scale"]
+    lz, u = _lz_u(s, p)
+    n = lz.size
+    return float(n * math.log(k) - n * math.log(lam) + (k - 1.0) * lz.sum() - u.sum())
+
+
+def _lcs_weibull(s: _Sample, p: dict[str, float]):
+    neg_u = np.negative(_lz_u(s, p)[1])  # −u formed once: it is ln(1 − F)
+    return _log_cdf_from_neg_u(neg_u), neg_u
 
 
 WEIBULL = _Family(
