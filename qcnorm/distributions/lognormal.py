@@ -59,12 +59,64 @@ def _ln3_score(xs: np.ndarray, theta: float) -> float:
     return float(w.sum() + _vdot(yc, w) / s2)
 
 
+def _ln3_score_dt(xs: np.ndarray, t: float) -> tuple[float, float]:
+    r"""The score of :func:`_ln3_score` at θ = x_(1) − eᵗ (the same value, computed the
+    same way) and its derivative in t.
+
+    With A = Σ w, B = Σ (y − ȳ) w, C = Σ (y − ȳ) w², W₂ = Σ w² (so dw/dθ = w²,
+    dy/dθ = −w, dσ²/dθ = −2B/n): dS/dθ = W₂ + (A²/n − W₂ + C)/σ² + 2B²/(n σ⁴), and
+    dS/dt = −eᵗ dS/dθ.
+    """
+    n = xs.size
+    d = xs - (float(xs[0]) - math.exp(t))
+    y = np.log(d)
+    yc = y - y.mean()
+    s2 = _vdot(yc, yc) / n
+    w = 1.0 / d
+    a, b = float(w.sum()), _vdot(yc, w)
+    score = float(a + b / s2)
+    np.multiply(w, w, out=w)  # w², in place: w is not needed any more
+    w2, c = float(w.sum()), _vdot(yc, w)
+    ds_dtheta = w2 + (a * a / n - w2 + c) / s2 + 2.0 * b * b / (n * s2 * s2)
+    return score, -math.exp(t) * ds_dtheta
+
+
+def _ln3_polish(xs: np.ndarray, t0: float, xtol: float, rtol: float) -> float | None:
+    """The root of the score in t = ln(x_(1) − θ) near ``t0`` on all of ``xs``: Newton,
+    kept inside the sign bracket it finds (bisection when a step leaves it), stopped when
+    a step is ≤ xtol + rtol·|t| (brentq's tolerance; Newton converges quadratically, so
+    the last step bounds the error). None if it does not settle within 30 steps."""
+    lo, hi = -math.inf, math.inf  # the score is > 0 above the root, ≤ 0 below it
+    t = t0
+    for _ in range(30):
+        f, df = _ln3_score_dt(xs, t)
+        if f > 0.0:
+            hi = t
+        else:
+            lo = t
+        if f == 0.0:
+            return t
+        t_new = t - f / df if df > 0.0 else math.nan
+        if not lo < t_new < hi:
+            if not (math.isfinite(lo) and math.isfinite(hi)):
+                return None
+            t_new = 0.5 * (lo + hi)
+        if abs(t_new - t) <= xtol + rtol * abs(t):
+            return t_new
+        t = t_new
+    return None
+
+
 def _ln3_root(xs: np.ndarray, log_d: np.ndarray, xtol: float) -> float | None:
     """ln(x_(1) − θ̂) at the first + to − change of the score along ``log_d`` (descending)."""
     x1 = float(xs[0])
 
+    seen: dict[float, float] = {}  # brentq asks again for the bracket ends: reuse them
+
     def score_at(t: float) -> float:
-        return _ln3_score(xs, x1 - math.exp(t))
+        if t not in seen:
+            seen[t] = _ln3_score(xs, x1 - math.exp(t))
+        return seen[t]
 
     prev_t, prev_s = float(log_d[0]), score_at(float(log_d[0]))
     for t in log_d[1:]:
@@ -94,11 +146,8 @@ def _fit_lognormal3(s: _Sample) -> dict[str, float]:
     if xs.size > _LN3_THIN:
         sub = xs[np.linspace(0, xs.size - 1, _LN3_THIN).astype(np.intp)]
         t0 = _ln3_root(sub, np.linspace(far, near, 23), 1e-6)
-        if t0 is not None:
-            for h in (0.02, 0.1, 0.5):  # a bracket around the thinned estimate
-                root = _ln3_root(xs, np.array([t0 + h, t0 - h]), 1e-12)
-                if root is not None:
-                    break
+        if t0 is not None:  # polished on all data to the tolerance of the full scan
+            root = _ln3_polish(xs, t0, 1e-12, 1e-12)
     if root is None:
         root = _ln3_root(xs, np.linspace(far, near, 23), 1e-12)
     if root is None:
