@@ -277,7 +277,10 @@ def gauge_zero_step(x: Any) -> float | None:
     """
     from .normality import _resolution_from_sorted
 
-    xs = np.sort(np.asarray(x, dtype=np.float64))
+    arr = np.asarray(x, dtype=np.float64)
+    if arr.size < 3 or arr.min() != 0.0:  # speed: no sort when no reading is 0 (the common case)
+        return None
+    xs = np.sort(arr)
     if xs.size < 3 or xs[0] != 0.0 or xs[-1] <= 0.0:
         return None
     step = float(f"{_resolution_from_sorted(xs).step:.6g}")  # 0.09999999999999964 -> 0.1

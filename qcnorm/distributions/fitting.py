@@ -170,6 +170,15 @@ def fit_distributions(
     xs = _sorted
     if xs is None or not _trusted_sorted_ok(xs, FIT_MIN_N):
         xs = np.sort(check_sample(x, "x", func, min_n=FIT_MIN_N))  # the usual messages
+    fits, skipped = _fit_each(xs, chosen, _case3, _zero_step)
+    return _ranking(fits, skipped, chosen)
+
+
+def _fit_each(xs: np.ndarray, chosen, _case3: dict | None = None,
+              _zero_step: float | None = None) -> tuple[list[DistributionFit], list[tuple[str, str]]]:
+    """Fit each family in ``chosen`` to sorted, checked ``xs``: (fits, skipped), in the
+    order of ``chosen``. analyze() may call it twice on two groups of families, in two
+    threads (see qcnorm.analysis.pipeline); :func:`_ranking` then merges them."""
     fits: list[DistributionFit] = []
     skipped: list[tuple[str, str]] = []
     # ``_zero_step`` (private, for analyze()): the gauge step h of rounded readings. A
@@ -207,6 +216,15 @@ def fit_distributions(
                 fits.append(_fit_sorted(nm, smp, (_case3 or {}).get(nm)))
         except DataError as exc:  # includes DomainError
             skipped.append((nm, str(exc)))
+    return fits, skipped
+
+
+def _ranking(fits: list[DistributionFit], skipped: list[tuple[str, str]], chosen) -> DistributionRanking:
+    """Rank fits by AIC (ties keep the order of ``chosen``) and list the skipped ones in
+    that order; raises DataError when nothing could be fitted."""
+    order = {nm: i for i, nm in enumerate(dict.fromkeys(chosen))}
+    fits = sorted(fits, key=lambda f: order[f.name])
+    skipped = sorted(skipped, key=lambda s: order[s[0]])
     if not fits:
         reasons = "; ".join(f"{nm}: {why}" for nm, why in skipped)
         raise DataError(f"No distribution could be fitted to these data. {reasons}")
