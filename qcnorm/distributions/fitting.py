@@ -12,6 +12,7 @@ import numpy as np
 from .._validation import check_sample
 from ..errors import ConfigError, DataError, DomainError
 from ..normality import _trusted_sorted_ok, anderson_darling_a2
+from ._base import _Sample
 from .adtest import _ad_p_value
 from .registry import _FAMILIES
 from .results import DistributionFit, DistributionRanking
@@ -44,16 +45,19 @@ def _support_problem(name: str, xs: np.ndarray) -> str | None:
     return None
 
 
-def _fit_sorted(name: str, xs: np.ndarray, case3: Any = None) -> DistributionFit:
+def _fit_sorted(name: str, smp: _Sample, case3: Any = None) -> DistributionFit:
+    """Fit ``name`` to the sorted sample in ``smp`` (shared by the fits of one call, so
+    ln x and the like are computed once)."""
     fam = _FAMILIES[name]
+    xs = smp.xs
     problem = _support_problem(name, xs)
     if problem:
         raise DomainError(problem)
-    params = {k: float(v) for k, v in fam.fit(xs).items()}
-    ll = fam.loglik(xs, params)
-    lc, ls = fam.log_cdf_sf(xs, params)
+    params = {k: float(v) for k, v in fam.fit(smp).items()}
+    ll = fam.loglik(smp, params)
+    lc, ls = fam.log_cdf_sf(smp, params)
     a2 = anderson_darling_a2(lc, ls)
-    p, note = _ad_p_value(name, xs, params, a2, case3)
+    p, note = _ad_p_value(name, smp, params, a2, case3)
     return DistributionFit(
         name=name,
         params=params,
@@ -117,7 +121,7 @@ def fit_distribution(x: Any, name: str) -> DistributionFit:
     """
     name = _check_name(name, "fit_distribution")
     xs = np.sort(check_sample(x, "x", "fit_distribution", min_n=FIT_MIN_N))
-    return _fit_sorted(name, xs)
+    return _fit_sorted(name, _Sample(xs))
 
 
 def fit_distributions(
@@ -190,13 +194,16 @@ def _fit_each(xs: np.ndarray, chosen, _case3: dict | None = None,
             xs_pos[:k] = _zero_step / 4.0
             zero_note = (f" {k} reading(s) of 0 were taken as {_zero_step / 4.0:g}, the middle of their rounding "
                          f"interval 0 to {_zero_step / 2.0:g} (gauge step {_zero_step:g}).")
+    # ln x and the like, computed once for all fits of this call (this call's own objects)
+    smp = _Sample(xs)
+    smp_pos = smp if xs_pos is xs else _Sample(xs_pos)
     for nm in dict.fromkeys(chosen):
         use_pos = zero_note and _FAMILIES[nm].support == "positive"
         try:
             # ``_case3`` (private, for analyze()): {"normal": ADResult of x, "lognormal":
             # ADResult of ln x} (case 3 of the normal test), already computed elsewhere.
             if use_pos:
-                f = _fit_sorted(nm, xs_pos)
+                f = _fit_sorted(nm, smp_pos)
                 # Likelihood as the transform candidates score censored zeros (selection.py):
                 # each 0 reading enters as ln P(0 < X ≤ h/2), not as a density at h/4, so the
                 # AICs of both routes stay comparable.
@@ -206,7 +213,7 @@ def _fit_each(xs: np.ndarray, chosen, _case3: dict | None = None,
                 fits.append(dataclasses.replace(f, loglik=ll, aic=2.0 * f.n_params - 2.0 * ll,
                                                 note=f.note + zero_note))
             else:
-                fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
+                fits.append(_fit_sorted(nm, smp, (_case3 or {}).get(nm)))
         except DataError as exc:  # includes DomainError
             skipped.append((nm, str(exc)))
     return fits, skipped
