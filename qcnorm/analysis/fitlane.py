@@ -23,7 +23,7 @@ from typing import Any
 import numpy as np
 
 from ..distributions import DistributionRanking, percentile_capability
-from ..distributions.fitting import _fit_each, _ranking
+from ..distributions.fitting import _fit_each, _prepare, _ranking
 from ..distributions.registry import _FAMILIES
 from ..errors import QcnormError
 from ..selection import gauge_zero_step
@@ -59,10 +59,11 @@ def threads_allowed(n: int) -> bool:
     return cpus > 1
 
 
-def _fit_group(xs: np.ndarray, names: tuple[str, ...], case3: dict | None, zstep: float | None):
+def _fit_group(xs: np.ndarray, names: tuple[str, ...], case3: dict | None, zstep: float | None,
+               prepared: tuple | None = None):
     """(fits, skipped) of some families, or the QcnormError that stopped them."""
     try:
-        return _fit_each(xs, names, case3, zstep)
+        return _fit_each(xs, names, case3, zstep, prepared)
     except QcnormError as exc:
         return exc
 
@@ -80,11 +81,13 @@ class DistributionLane:
         self._zstep = gauge_zero_step(xs) if zeros == "censor" else None
         self._board = board
         self._parts: list[Future] = []
+        self._prepared = _prepare(xs, self._zstep)  # ln x etc. once for every family's task
 
     def start(self) -> None:
         """Post the families that need nothing from the other steps, one task each."""
         for nm in _OWN_AD:
-            self._parts.append(self._board.post(_fit_group, self._xs, (nm,), None, self._zstep))
+            self._parts.append(self._board.post(_fit_group, self._xs, (nm,), None, self._zstep,
+                                               self._prepared))
 
     def add_shared(self, ads: dict) -> None:
         """Post the normal and lognormal fits with the transform step's A² of x and ln x."""
@@ -92,7 +95,7 @@ class DistributionLane:
         log_c = ads.get("log")  # its A² is that of ln x only without a shift
         ad_ln = log_c[1] if log_c is not None and log_c[0].params_.get("shift") == 0.0 else None
         case3 = {"normal": ad_x, "lognormal": ad_ln}
-        self._parts.append(self._board.post(_fit_group, self._xs, _SHARED_AD, case3, self._zstep))
+        self._parts.append(self._board.post(_fit_group, self._xs, _SHARED_AD, case3, self._zstep, self._prepared))
 
     def finish(self, cap, lsl, usl, warnings: list[str]) -> tuple[DistributionRanking | None, Any]:
         """The ranking and the percentile cross-check of the best fit; a failure becomes a

@@ -174,13 +174,9 @@ def fit_distributions(
     return _ranking(fits, skipped, chosen)
 
 
-def _fit_each(xs: np.ndarray, chosen, _case3: dict | None = None,
-              _zero_step: float | None = None) -> tuple[list[DistributionFit], list[tuple[str, str]]]:
-    """Fit each family in ``chosen`` to sorted, checked ``xs``: (fits, skipped), in the
-    order of ``chosen``. analyze() may call it twice on two groups of families, in two
-    threads (see qcnorm.analysis.pipeline); :func:`_ranking` then merges them."""
-    fits: list[DistributionFit] = []
-    skipped: list[tuple[str, str]] = []
+def _prepare(xs: np.ndarray, _zero_step: float | None = None) -> tuple[_Sample, _Sample, str]:
+    """The shared samples of sorted, checked ``xs`` for :func:`_fit_each`: (as read, with
+    gauge zeros placed for the positive families, the note that says so)."""
     # ``_zero_step`` (private, for analyze()): the gauge step h of rounded readings. A
     # reading of exactly 0 with no negative value is then a rounded small value in
     # [0, h/2); the positive families are fitted with it at h/4, the middle of that
@@ -196,7 +192,19 @@ def _fit_each(xs: np.ndarray, chosen, _case3: dict | None = None,
                          f"interval 0 to {_zero_step / 2.0:g} (gauge step {_zero_step:g}).")
     # ln x and the like, computed once for all fits of this call (this call's own objects)
     smp = _Sample(xs)
-    smp_pos = smp if xs_pos is xs else _Sample(xs_pos)
+    return smp, (smp if xs_pos is xs else _Sample(xs_pos)), zero_note
+
+
+def _fit_each(xs: np.ndarray, chosen, _case3: dict | None = None, _zero_step: float | None = None,
+              prepared: tuple | None = None) -> tuple[list[DistributionFit], list[tuple[str, str]]]:
+    """Fit each family in ``chosen`` to sorted, checked ``xs``: (fits, skipped), in the
+    order of ``chosen``. analyze() calls it once per family, maybe in two threads, with one
+    ``prepared`` (:func:`_prepare`) for all (qcnorm.analysis.fitlane); :func:`_ranking`
+    then merges them. Sharing ``prepared`` between threads is safe: its memo only ever
+    holds values that are the same whoever computes them first."""
+    fits: list[DistributionFit] = []
+    skipped: list[tuple[str, str]] = []
+    smp, smp_pos, zero_note = prepared if prepared is not None else _prepare(xs, _zero_step)
     for nm in dict.fromkeys(chosen):
         use_pos = zero_note and _FAMILIES[nm].support == "positive"
         try:
