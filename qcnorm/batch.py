@@ -342,13 +342,13 @@ def run_batch(
     try:
         opts = {"transform": transform, "chart": chart, "rules": rules, "round_lambda": round_lambda,
                 "zeros": zeros}
-        order, chosen = _run_plan(plan, specs, opts, None if pdf_dir is None else str(pdf_dir),
+        order, chosen, workers = _run_plan(plan, specs, opts, None if pdf_dir is None else str(pdf_dir),
                                   engine=engine, address=address, jobs=jobs, task_size=task_size,
                                   progress=progress)
     finally:
         plan.close()
     return BatchResult(rows=_ranked(order), source=str(getattr(source, "name", source))[:200],
-                       seconds=time.perf_counter() - t0, jobs=jobs, engine=chosen)
+                       seconds=time.perf_counter() - t0, jobs=workers, engine=chosen)
 
 
 def _check_sizes(jobs: Any, task_size: Any, chunk_rows: Any, chunk_cells: Any) -> int:
@@ -374,9 +374,9 @@ def _spec_table(specs: Mapping[str, SpecRow] | str | os.PathLike | None) -> dict
 
 def _run_plan(plan: Any, specs: dict[str, SpecRow], opts: dict, pdf: str | None, *, engine: str,
               address: str | None, jobs: int, task_size: int | None,
-              progress: Callable[[int, int], None] | None) -> tuple[dict[int, BatchRow], str]:
+              progress: Callable[[int, int], None] | None) -> tuple[dict[int, BatchRow], str, int]:
     """Group the plan's items into tasks, run them on the chosen engine and collect the rows
-    by their place in the file: ({index: row}, engine name)."""
+    by their place in the file: ({index: row}, engine name, workers that ran them)."""
     from .engines import choose_engine, run_tasks
 
     total = plan.total
@@ -391,8 +391,9 @@ def _run_plan(plan: Any, specs: dict[str, SpecRow], opts: dict, pdf: str | None,
     done = 0
     if progress:
         progress(0, total)
+    info: dict = {}
     for _task, rows in run_tasks(_analyse_task, tasks, engine=chosen, jobs=jobs, scheduler=address,
-                                 on_fail=_task_failed):
+                                 on_fail=_task_failed, info=info):
         for idx, row in rows:
             order[idx] = row
         done = len(order)
@@ -400,7 +401,7 @@ def _run_plan(plan: Any, specs: dict[str, SpecRow], opts: dict, pdf: str | None,
             progress(done, total)
     if progress and done < total:
         progress(len(order), total)
-    return order, chosen
+    return order, chosen, int(info.get("workers", 1 if chosen == "local" else jobs))
 
 
 def _tasks(items: Any, specs: dict[str, SpecRow], order: dict[int, BatchRow], task_size: int,

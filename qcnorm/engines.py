@@ -64,12 +64,17 @@ def scheduler_address(scheduler: str | None) -> str | None:
 
 
 def run_tasks(func: Callable[[Any], Any], tasks: Iterable[Any], *, engine: str, jobs: int,
-              scheduler: str | None = None, on_fail: Callable[[Any, BaseException], Any]) -> Iterator[tuple[Any, Any]]:
+              scheduler: str | None = None, on_fail: Callable[[Any, BaseException], Any],
+              info: dict | None = None) -> Iterator[tuple[Any, Any]]:
     """Run ``func(task)`` for every task; yield ``(task, result)`` as tasks complete.
 
     ``on_fail(task, exc)`` gives the result of a task that could not be run at all
-    (its worker kept dying, or it could not be sent).
+    (its worker kept dying, or it could not be sent). ``info["workers"]``, when a dict is
+    given, receives the number of workers that ran the tasks (on a Dask cluster, the
+    cluster's own count, not this machine's cores).
     """
+    if info is not None:
+        info["workers"] = 1 if engine == "local" else max(1, jobs)
     if engine == "local":
         for t in tasks:
             try:
@@ -81,7 +86,7 @@ def run_tasks(func: Callable[[Any], Any], tasks: Iterable[Any], *, engine: str, 
         yield from _run_pool(func, tasks, jobs, on_fail)
         return
     if engine == "dask":
-        yield from _run_dask(func, tasks, jobs, scheduler, on_fail)
+        yield from _run_dask(func, tasks, jobs, scheduler, on_fail, info=info)
         return
     raise ConfigError(f"engine must be one of {', '.join(ENGINES[1:])}. Got {engine!r} instead.")
 
@@ -144,7 +149,7 @@ def local_cluster(jobs: int):
                         scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})
 
 
-def _run_dask(func, tasks, jobs, scheduler, on_fail, *, client=None):
+def _run_dask(func, tasks, jobs, scheduler, on_fail, *, client=None, info: dict | None = None):
     try:
         from distributed import Client, as_completed
     except ImportError:  # pragma: no cover - dask is in requirements.txt
@@ -163,7 +168,7 @@ def _run_dask(func, tasks, jobs, scheduler, on_fail, *, client=None):
             cluster = local_cluster(jobs)
             client = Client(cluster)
     try:
-        yield from _dask_loop(client, as_completed, func, tasks, on_fail)
+        yield from _dask_loop(client, as_completed, func, tasks, on_fail, info)
     finally:
         if own:
             client.close()
@@ -171,8 +176,10 @@ def _run_dask(func, tasks, jobs, scheduler, on_fail, *, client=None):
                 cluster.close()
 
 
-def _dask_loop(client, as_completed, func, tasks, on_fail):
+def _dask_loop(client, as_completed, func, tasks, on_fail, info: dict | None = None):
     n_workers = max(1, len(client.scheduler_info().get("workers", {})))
+    if info is not None:
+        info["workers"] = n_workers
     limit = n_workers * _IN_FLIGHT_PER_WORKER
     run = uuid.uuid4().hex[:8]
     it = iter(tasks)

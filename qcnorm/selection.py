@@ -8,6 +8,7 @@ holding the ranking table, the chosen fitted transform and the reason in plain w
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -17,16 +18,15 @@ import numpy as np
 import pandas as pd
 
 from ._results import Result
+from ._scoring import _evaluate
 from ._validation import check_choice, check_sample
 from .errors import ConfigError, DataError, QcnormError
 from .transforms import (
     TRANSFORMS,
     SpreadLevel,
     Transform,
-    censored_normal_fit,
     make_transform,
     spread_level,
-    substitute_zero_readings,
 )
 from .transforms.base import _SharedLogs
 
@@ -198,96 +198,6 @@ def _resolve(candidates: str | Sequence[str]) -> tuple[tuple[str, ...], bool]:
     return tuple(sorted(dict.fromkeys(names), key=SIMPLICITY_ORDER.index)), single
 
 
-def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = None,
-              zero_limit: float | None = None, seen: dict | None = None) -> CandidateFit:
-    """Scores of a fitted transform on the sorted sample ``xs``; ``ad_out[family]`` gets
-    ``(t, ADResult of T(xs), T(xs) itself, ascending)`` when a dict is given (reused by analyze()). With
-    ``zero_limit`` the readings of 0 are scored as censored (see choose_transform Notes).
-    ``seen`` (private) maps id(T(xs)) to its moments and A² for a candidate whose T(xs) is the
-    very array of an earlier one (Box–Cox at λ = 0 and the log both give the shared ln x)."""
-    from .normality import _vdot
-
-    n = xs.size
-    xt = substitute_zero_readings(t, xs)  # log/Box–Cox fitted with zero readings: their stand-in
-    # The fit has already checked that every value lies in the transform's domain, so
-    # the public transform()/log_jacobian() checks are skipped here (same numbers).
-    shared = getattr(t, "_shared_forward_jac", None)
-    fj = shared(xt) if shared is not None and zero_limit is None else None  # speed: shared ln x
-    with np.errstate(all="ignore"):
-        ty = t._forward(xt) if fj is None else fj[0]  # increasing, so still sorted
-        if zero_limit is not None:
-            log_jac_sum = math.nan
-        else:
-            log_jac_sum = float((t._log_jac(xt) if fj is None else fj[1]).sum())
-    hit = None if seen is None else seen.get(id(ty))
-    if hit is not None and hit[0] is ty:
-        m2, skew, ad = hit[1:]
-    else:
-        m2, skew, ad = _scores(ty, n, _vdot)
-        if seen is not None:
-            seen[id(ty)] = (ty, m2, skew, ad)
-    if zero_limit is None:
-        # ln L of the original data = Σ ln φ(T(x); μ̂, σ̂) + Σ ln T'(x), μ̂, σ̂ the MLE of T(x).
-        loglik = -0.5 * n * (math.log(2.0 * math.pi * m2) + 1.0) + log_jac_sum
-    else:
-        loglik = _censored_loglik(t, xs, zero_limit)
-    k = t.n_model_params
-    if ad_out is not None:
-        ad_out[family] = (t, ad, ty)
-    return CandidateFit(
-        name=t.name, family=family, params=t.params_, loglik=loglik, aic=2.0 * k - 2.0 * loglik,
-        delta_aic=math.nan, ad_statistic=float(ad.statistic), ad_p_value=float(ad.p_value),
-        skewness_after=skew, error=None, n_params=k, description=t.describe(), transform=t,
-    )
-
-
-def _scores(ty: np.ndarray, n: int, _vdot) -> tuple[float, float, Any]:
-    """m₂, skewness g₁ and the Anderson–Darling result of the sorted transformed sample."""
-    from .normality import AD_MIN_N, anderson_darling
-    from .normality.anderson import _ad_from_sorted
-
-    mu = float(ty.mean())
-    dev = ty - mu
-    m2 = _vdot(dev, dev) / n
-    if not (m2 > 0 and math.isfinite(m2)):
-        raise DataError("the transformed values have no spread")
-    skew = _vdot(dev * dev, dev) / n / m2**1.5
-    if n >= AD_MIN_N and bool(np.all(ty[1:] >= ty[:-1])):
-        # speed: ty is finite with spread (m2 checked above) and in order, so the public
-        # function's checks and its x − x̄ pass are skipped (the same deviations, same A²)
-        ad = _ad_from_sorted(ty, dev)
-    else:
-        ad = anderson_darling(ty, presorted=True)  # its own message for what is wrong
-    return m2, skew, ad
-
-
-def _censored_loglik(t: Transform, xs: np.ndarray, c: float) -> float:
-    """ln L of the ORIGINAL data when each 0 reading is only known to lie in (0, c]:
-
-        Σ_exact [ln φ(T(x); μ̂, σ̂) + ln T'(x)] + k·ln[Φ((T(c) − μ̂)/σ̂) − Φ((T(0) − μ̂)/σ̂)],
-
-    μ̂, σ̂ maximising it (``censored_normal_fit``); T(0) is the image's lower end when 0 is the
-    domain's open end (log, Box–Cox). Every candidate is scored on this same likelihood, so
-    the AIC comparison stays fair.
-    """
-    fitted = getattr(t, "censored_loglik_", None)
-    if getattr(t, "zero_value_", None) is not None and fitted is not None:
-        return float(fitted)  # the log/Box–Cox fit maximised exactly this (at the λ used)
-    zeros = xs == 0.0
-    k = int(zeros.sum())
-    ex = xs[~zeros]
-    with np.errstate(all="ignore"):
-        y = t._forward(ex)
-        jac = float(t._log_jac(ex).sum())
-        b = float(t._forward(np.array([c]))[0])
-        a = (float(t._forward(np.array([0.0]))[0]) if bool(t.domain.contains(np.array([0.0]))[0])
-             else float(t.image[0]))
-    from .normality import _vdot
-
-    f = censored_normal_fit(ex.size, float(y.sum()), _vdot(y, y), k, a, b)
-    return f.loglik + jac
-
-
 def gauge_zero_step(x: Any) -> float | None:
     """The gauge step when readings of 0 look like small values rounded to 0, else None.
 
@@ -299,7 +209,10 @@ def gauge_zero_step(x: Any) -> float | None:
     """
     from .normality import _resolution_from_sorted
 
-    xs = np.sort(np.asarray(x, dtype=np.float64))
+    arr = np.asarray(x, dtype=np.float64)
+    if arr.size < 3 or arr.min() != 0.0:  # speed: no sort when no reading is 0 (the common case)
+        return None
+    xs = np.sort(arr)
     if xs.size < 3 or xs[0] != 0.0 or xs[-1] <= 0.0:
         return None
     step = float(f"{_resolution_from_sorted(xs).step:.6g}")  # 0.09999999999999964 -> 0.1
@@ -344,6 +257,69 @@ def _failed(family: str, reason: str) -> CandidateFit:
     )
 
 
+#: The candidates from the longest to fit to the shortest (a scheduling hint only).
+_COST_ORDER = ("yeojohnson", "boxcox", "johnson", "log", "none")
+
+
+def _run_here(thunks):
+    return [f() for f in thunks]
+
+
+def _fit_and_score(family: str, t: Transform, xs: np.ndarray, zero_limit: float | None,
+                   logs: _SharedLogs | None = None, seen: dict | None = None):
+    """One candidate, fitted to sorted ``xs`` and scored: ((CandidateFit, A² entry) or the
+    QcnormError that stopped it). Touches nothing but ``t``, and the candidates' shared
+    read-only ln x (``logs``) and scored images (``seen``): thread-safe, same numbers."""
+    t._shared_logs = logs  # type: ignore[attr-defined]  # lent for the fit and the scoring only
+    try:
+        t.fit(xs)  # sorted values: same fit, and Johnson skips its own sort
+        out: dict = {}
+        return _evaluate(family, t, xs, out, zero_limit=zero_limit, seen=seen), out[family]
+    except QcnormError as exc:
+        return exc
+    finally:
+        del t._shared_logs
+
+
+def _fit_candidates(names, xs: np.ndarray, *, auto: bool, single: bool, round_lambda: bool, zh: ZeroHandling,
+                    zero_limit: float | None, run, ad_out: dict | None) -> list[CandidateFit]:
+    """Every candidate fitted and scored (or failed with its reason), in the order of ``names``."""
+    slots: dict[str, Any] = {}
+    for fam in names:
+        if auto and fam == "johnson" and xs.size < JOHNSON_AUTO_MIN_N:
+            slots[fam] = _failed(fam, f"not tried automatically below {JOHNSON_AUTO_MIN_N} values (its "
+                                      "percentile fit rests on the tails); choose it explicitly to fit it")
+            continue
+        opts: dict[str, Any] = {"round_lambda": round_lambda} if fam == "boxcox" else {}
+        if zero_limit is not None and fam in ("log", "boxcox"):
+            opts["zero_limit"] = zero_limit
+        slots[fam] = make_transform(fam, **opts)
+    # ``run`` (private, for analyze()): runs a list of thunks, possibly on two threads
+    # (qcnorm.analysis.board), and returns their results in order. Each candidate is a pure
+    # task, posted longest first; the results are collected in the simplicity order.
+    todo = sorted((f for f, v in slots.items() if not isinstance(v, CandidateFit)), key=_COST_ORDER.index)
+    logs, seen = _SharedLogs(xs), {}  # speed: ln x / ln(1 + x) and a repeated T(x) scored once
+    done = (run or _run_here)([functools.partial(_fit_and_score, f, slots[f], xs, zero_limit, logs, seen)
+                               for f in todo])
+    results = dict(zip(todo, done))
+    fits: list[CandidateFit] = []
+    for fam in names:
+        res = results.get(fam, slots[fam])
+        if isinstance(res, QcnormError):
+            if single:
+                raise res
+            reason = _short_reason(fam, res)
+            if zh.method == "excluded" and fam in ("log", "boxcox"):
+                reason += " (the 0 readings look rounded from small values: zeros='censor' would fit them)"
+            res = _failed(fam, reason)
+        elif not isinstance(res, CandidateFit):  # (fit, A² entry)
+            res, ad_entry = res
+            if ad_out is not None:
+                ad_out[fam] = ad_entry
+        fits.append(res)
+    return fits
+
+
 def choose_transform(
     x: Any,
     candidates: str | Sequence[str] = "auto",
@@ -353,6 +329,7 @@ def choose_transform(
     zeros: str = "censor",
     _sorted: np.ndarray | None = None,
     _ad_out: dict | None = None,
+    _run: Any = None,
 ) -> TransformChoice:
     """Fit the candidate transforms, rank them and choose one.
 
@@ -437,31 +414,9 @@ def choose_transform(
     xs = np.sort(arr) if _sorted is None else _sorted
     zh = _zero_handling(xs, zeros)
     zero_limit = zh.limit if zh.method == "censored" else None
-    fits: list[CandidateFit] = []
     auto = isinstance(candidates, str) and candidates == "auto"
-    logs, seen = _SharedLogs(xs), {}  # speed: ln x / ln(1 + x) and repeated T(x) scored once
-    for fam in names:
-        if auto and fam == "johnson" and xs.size < JOHNSON_AUTO_MIN_N:
-            fits.append(_failed(fam, f"not tried automatically below {JOHNSON_AUTO_MIN_N} values (its "
-                                     "percentile fit rests on the tails); choose it explicitly to fit it"))
-            continue
-        opts: dict[str, Any] = {"round_lambda": round_lambda} if fam == "boxcox" else {}
-        if zero_limit is not None and fam in ("log", "boxcox"):
-            opts["zero_limit"] = zero_limit
-        t = make_transform(fam, **opts)
-        t._shared_logs = logs  # type: ignore[attr-defined]  # lent for the fit and the scoring only
-        try:
-            t.fit(xs)  # sorted values: same fit, and Johnson skips its own sort
-            fits.append(_evaluate(fam, t, xs, _ad_out, zero_limit=zero_limit, seen=seen))
-        except QcnormError as exc:
-            if single:
-                raise
-            reason = _short_reason(fam, exc)
-            if zh.method == "excluded" and fam in ("log", "boxcox"):
-                reason += " (the 0 readings look rounded from small values: zeros='censor' would fit them)"
-            fits.append(_failed(fam, reason))
-        finally:
-            del t._shared_logs
+    fits = _fit_candidates(names, xs, auto=auto, single=single, round_lambda=round_lambda, zh=zh,
+                           zero_limit=zero_limit, run=_run, ad_out=_ad_out)
     ok = [c for c in fits if c.ok]
     if not ok:
         raise DataError(

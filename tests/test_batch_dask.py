@@ -64,9 +64,11 @@ def test_cluster_binds_localhost_without_dashboard(cluster):
 def test_summary_bytes_identical_pool_and_local_cluster(tmp_path, cluster):
     p, specs = _file(tmp_path)
     pool = run_batch(p, specs=specs, subgroup="Subgroup", jobs=2, engine="pool")
-    dask = run_batch(p, specs=specs, subgroup="Subgroup", scheduler=cluster.scheduler_address, task_size=3)
+    # jobs=7 asks for more workers than the cluster has: the result reports the cluster's 2
+    dask = run_batch(p, specs=specs, subgroup="Subgroup", scheduler=cluster.scheduler_address, task_size=3, jobs=7)
     local = run_batch(p, specs=specs, subgroup="Subgroup", engine="local")
     assert dask.engine == "dask" and pool.engine == "pool"
+    assert (dask.jobs, pool.jobs, local.jobs) == (len(cluster.workers), 2, 1)
     assert export_csv(dask.frame()) == export_csv(pool.frame()) == export_csv(local.frame())
     flat = next(r for r in dask.rows if r.characteristic == "Flat")
     assert flat.error and flat.rank == 1  # the bad one is reported, the others analysed

@@ -769,3 +769,19 @@ def test_chart_carries_its_false_alarm_rate(rng):
         false_alarm_rate("westgard")
     with pytest.raises(ConfigError, match="positive whole number"):
         false_alarm_rate("nelson", 0)
+
+
+def test_long_runs_state_the_expected_count_of_chance_signals():
+    """Over 200,000 stable values nearly every run signals somewhere, so the sentence gives
+    the count expected from chance: n × per-point rate. Rule 1 alone is 2Φ(−3) = 0.0027 per
+    point (ARL 370.4; a fact of the trade); the default adds the moving-range chart's 0.1 %
+    probability limit, so its count must be above 200,000 × 0.0027 = 540."""
+    fa = false_alarm_rate("beyond_limits", 200_000)
+    words = fa.plain_words()
+    expected = 200_000 * fa.per_point
+    assert expected > 200_000 * 2 * stats.norm.sf(3.0)
+    assert "200,000 values" in words and "almost every such run" in words
+    assert f"about {expected:,.0f} signals are expected from chance alone" in words
+    assert "nearly 100" not in words and "about nearly" not in words
+    short = false_alarm_rate("beyond_limits", 100).plain_words()
+    assert "expected from chance alone" not in short  # one or two chance signals: no count

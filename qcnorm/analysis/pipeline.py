@@ -9,12 +9,13 @@ import numpy as np
 
 from ..control import DEFAULT_RULES
 from ..transforms import substitute_zero_readings
+from .board import TaskBoard
+from .fitlane import DistributionLane, threads_allowed
 from .inputs import _checked_layout, _checked_limits, _checked_values, _unpack_measurements
 from .results import Analysis, Baseline, Settings
 from .steps import (
     _capability_step,
     _chart_step,
-    _distribution_step,
     _excluded_rows,
     _model_range_step,
     _normality_step,
@@ -101,17 +102,25 @@ def analyze(
 
     warnings: list[str] = list(ingest_warnings)
     ads: dict = {}  # speed: {family: (transform, Anderson–Darling result, T(sorted x))} from choose_transform
-    choice, tr, reason, phase = _transform_step(x, xs, transform, baseline, lsl, usl, subgroups,
-                                                round_lambda, zeros, ads)
-    # A log/Box–Cox fitted with readings of 0 as censored values (or a baseline frozen from
-    # one) places each such reading at its fitted stand-in value; x itself is kept as read.
-    x_t = substitute_zero_readings(tr, x)
-    y = tr.transform(x_t)
-    norm_raw, norm_t = _normality_step(x, xs, y, tr, ads, transform, baseline, warnings)
-    ch, lu = _chart_step(x, y, tr, subgroups, chart, excl, rules, baseline, units, warnings)
-    cap = _capability_step(x, y, tr, ch, phase, subgroups, excl, rules, lsl, usl, target,
-                           required_index, confidence, warnings)
-    dists, perc = _distribution_step(x, xs, cap, ads, zeros, lsl, usl, warnings)
+    # speed: the distribution fits (step 4b) run as a second lane, in a thread for large n
+    board = TaskBoard(threaded=threads_allowed(n), name="qcnorm-fits")
+    lane = DistributionLane(xs, zeros, board)
+    try:
+        lane.start()
+        choice, tr, reason, phase = _transform_step(x, xs, transform, baseline, lsl, usl, subgroups,
+                                                    round_lambda, zeros, ads, run=board.run_all)
+        lane.add_shared(ads)
+        # A log/Box–Cox fitted with readings of 0 as censored values (or a baseline frozen from
+        # one) places each such reading at its fitted stand-in value; x itself is kept as read.
+        x_t = substitute_zero_readings(tr, x)
+        y = tr.transform(x_t)
+        norm_raw, norm_t = _normality_step(x, xs, y, tr, ads, transform, baseline, warnings)
+        ch, lu = _chart_step(x, y, tr, subgroups, chart, excl, rules, baseline, units, warnings)
+        cap = _capability_step(x, y, tr, ch, phase, subgroups, excl, rules, lsl, usl, target,
+                               required_index, confidence, warnings)
+        dists, perc = lane.finish(cap, lsl, usl, warnings)
+    finally:
+        board.close()
     if cap is not None and model_range:
         cap = _model_range_step(xs, cap, tr, choice, dists, perc, norm_raw, norm_t, warnings, ads)
     excluded = _excluded_rows(ingest_excluded, ch, row_numbers)

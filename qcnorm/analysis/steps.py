@@ -1,21 +1,18 @@
 """The steps of analyze(), in order: transform, normality, control chart, capability and
-the verdict across models, exclusions. Each takes what the earlier steps produced and
-appends its plain-words warnings to the shared list."""
+the verdict across models, exclusions (the distribution fits, step 4b, are in
+:mod:`.fitlane`). Each takes what the earlier steps produced and appends its plain-words
+warnings to the shared list."""
 
 from __future__ import annotations
-
-from typing import Any
 
 import numpy as np
 
 from ..capability import Capability, capability
 from ..control import ControlChart, control_chart, limits_in_units
-from ..distributions import DistributionRanking, fit_distributions, percentile_capability
-from ..errors import QcnormError
 from ..modelrange import apply_model_range
 from ..modelrange import model_range as _model_range
 from ..normality import normality_report
-from ..selection import TransformChoice, choose_transform, gauge_zero_step
+from ..selection import TransformChoice, choose_transform
 from ..transforms import Transform, substitute_zero_readings
 from .inputs import SMALL_N
 from .results import Baseline
@@ -54,9 +51,10 @@ def _best_spec_compatible(choice: TransformChoice, lsl: float | None, usl: float
 
 
 def _transform_step(x, xs, transform, baseline: Baseline | None, lsl, usl, subgroups, round_lambda, zeros,
-                    ads: dict):
+                    ads: dict, run=None):
     """1. Transform: chosen, requested, or frozen in a baseline. Returns (choice or None,
-    transform, reason, phase); fills ``ads`` with the candidates' Anderson–Darling results."""
+    transform, reason, phase); fills ``ads`` with the candidates' Anderson–Darling results.
+    ``run`` runs the candidates' fits (a TaskBoard's run_all: two threads at large n)."""
     n = x.size
     choice: TransformChoice | None = None
     phase = "I"
@@ -70,7 +68,7 @@ def _transform_step(x, xs, transform, baseline: Baseline | None, lsl, usl, subgr
     else:
         cands = "auto" if transform == "auto" else transform
         choice = choose_transform(x, candidates=cands, subgroups=subgroups, round_lambda=round_lambda,
-                                  zeros=zeros, _sorted=xs, _ad_out=ads)
+                                  zeros=zeros, _sorted=xs, _ad_out=ads, _run=run)
         tr = choice.transform
         reason = choice.reason
         if transform == "auto" and _spec_beyond_fitted_bound(tr, lsl, usl):
@@ -177,28 +175,6 @@ def _capability_step(x, y, tr: Transform, ch: ControlChart, phase: str, subgroup
         )
         warnings.extend(n_ for n_ in cap.notes if n_ not in warnings)
     return cap
-
-
-def _distribution_step(x, xs, cap: Capability | None, ads: dict, zeros: str, lsl, usl,
-                       warnings: list[str]) -> tuple[DistributionRanking | None, Any]:
-    """4b. The distribution fits and the percentile cross-check of the best one."""
-    perc = None
-    dists: DistributionRanking | None = None
-    ad_x = ads["none"][1] if "none" in ads else None
-    try:
-        log_c = ads.get("log")  # its A² is that of ln x only without a shift
-        ad_ln = log_c[1] if log_c is not None and log_c[0].params_.get("shift") == 0.0 else None
-        # readings of 0 that the gauge rule (selection.gauge_zero_step) calls rounded small values:
-        # the positive families take them at h/4 (distributions.fit_distributions), unless the
-        # user asked to keep zeros as zeros
-        zstep = gauge_zero_step(xs) if zeros == "censor" else None
-        dists = fit_distributions(x, _sorted=xs, _case3={"normal": ad_x, "lognormal": ad_ln},
-                                  _zero_step=zstep)
-        if cap is not None and dists.best is not None:
-            perc = percentile_capability(dists.best, lsl=lsl, usl=usl)
-    except QcnormError as exc:
-        warnings.append(f"No distribution could be fitted for the percentile cross-check: {exc}")
-    return dists, perc
 
 
 def _model_range_step(xs, cap: Capability, tr: Transform, choice, dists, perc, norm_raw, norm_t,

@@ -112,12 +112,17 @@ class FalseAlarmRate(Result):
         """The figures in one sentence for a technician."""
         what = "values" if self.chart == "individuals" else "subgroups"
         pct = 100.0 * self.over_n
-        share = f"{pct:.0f} %" if 1.0 <= pct < 99.5 else (f"{pct:.1f} %" if pct < 1.0 else "nearly 100 %")
-        return (
-            f"With these rules, a stable process charted over {self.n} {what} would still raise at "
-            f"least one signal in about {share} of such runs (about one false signal in "
-            f"{self.arl:,.0f} {what})."
-        )
+        if pct >= 99.5:
+            share = "almost every such run"
+        else:
+            share = "about " + (f"{pct:.0f} %" if pct >= 1.0 else f"{pct:.1f} %") + " of such runs"
+        words = (f"With these rules, a stable process charted over {self.n:,} {what} would still raise at "
+                 f"least one signal in {share} (about one false signal in {self.arl:,.0f} {what})")
+        expected = self.n / self.arl if self.arl > 0 else 0.0
+        if expected >= 2.0:  # a long run: the count of chance signals is the useful figure
+            words += (f"; about {expected:,.0f} signals are expected from chance alone, so compare the "
+                      f"count of signals with that, and look for their causes")
+        return words + "."
 
 
 def _zone_chain(spec: tuple[tuple, ...]):

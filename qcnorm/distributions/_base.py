@@ -14,19 +14,55 @@ from ..errors import DataError
 _LN_2PI = math.log(2.0 * math.pi)
 
 
+class _Sample:
+    """One sorted sample and what several fits compute from it, each at most once.
+
+    ``lx`` is ln x (made on first use, by ``np.log(xs)`` as each family did before, so
+    the values are the same); :meth:`memo` keeps other arrays under a key that names
+    everything they depend on (e.g. ln(x − θ̂) under ``("ln", θ̂)``), so a fit, its
+    log-likelihood and its A² share one pass. One object per fit_distributions /
+    fit_distribution call, used by that call only (never module-level), so fits running
+    in another thread share nothing through it.
+    """
+
+    __slots__ = ("xs", "_memo")
+
+    def __init__(self, xs: np.ndarray) -> None:
+        self.xs = xs
+        self._memo: dict[tuple, Any] = {}
+
+    def memo(self, key: tuple, make: Callable[[], Any]) -> Any:
+        """The value stored under ``key``, made by ``make()`` on first use."""
+        v = self._memo.get(key)
+        if v is None:
+            v = self._memo[key] = make()
+        return v
+
+    @property
+    def lx(self) -> np.ndarray:
+        """ln x (positive samples only)."""
+        return self.memo(("ln", 0.0), lambda: np.log(self.xs))
+
+    def log_shifted(self, theta: float) -> np.ndarray:
+        """ln(x − θ); θ = 0 is ln x itself (x − 0.0 is x, so the same values)."""
+        if theta == 0.0:
+            return self.lx
+        return self.memo(("ln", theta), lambda: np.log(self.xs - theta))
+
+
 @dataclass(frozen=True, slots=True)
 class _Family:
     """One family: its label, parameter count, support ("real" or "positive"), the ML
-    ``fit`` on sorted values, the log-likelihood, the (log F, log(1 − F)) pair at sorted
-    values (for Anderson–Darling), a frozen scipy-like object for cdf/ppf/logpdf, and the
+    ``fit`` on a :class:`_Sample` of sorted values, the log-likelihood, the
+    (log F, log(1 − F)) pair at the sorted values (for Anderson–Darling), a frozen scipy-like object for cdf/ppf/logpdf, and the
     estimation method in words."""
 
     label: str
     n_params: int
     support: str  # "real" or "positive"
-    fit: Callable[[np.ndarray], dict[str, float]]
-    loglik: Callable[[np.ndarray, dict[str, float]], float]
-    log_cdf_sf: Callable[[np.ndarray, dict[str, float]], tuple[np.ndarray, np.ndarray]]
+    fit: Callable[["_Sample"], dict[str, float]]
+    loglik: Callable[["_Sample", dict[str, float]], float]
+    log_cdf_sf: Callable[["_Sample", dict[str, float]], tuple[np.ndarray, np.ndarray]]
     frozen: Callable[[dict[str, float]], Any]
     method: str
 
@@ -40,6 +76,14 @@ def _normal_ml(v: np.ndarray) -> tuple[float, float]:
 def _normal_loglik_at_ml(n: int, sigma: float) -> float:
     # −(n/2)(ln 2πσ² + 1) at the ML estimates (Σ(x − μ)² = nσ²)
     return -0.5 * n * (_LN_2PI + 2.0 * math.log(sigma) + 1.0)
+
+
+def _log_cdf_from_neg_u(neg_u: np.ndarray) -> np.ndarray:
+    """ln(1 − e^{−u}) from −u (the log-survival of the exponential and Weibull), with one
+    scratch array: the same operations as ``np.log(-np.expm1(-u))``, done in place."""
+    lc = np.expm1(neg_u)
+    np.negative(lc, out=lc)
+    return np.log(lc, out=lc)
 
 
 def _require_spread(sigma: float, what: str) -> None:

@@ -8,6 +8,7 @@ from typing import Any
 import numpy as np
 
 from ..normality import _log_phi_pair_sorted, _vdot, anderson_darling_a2
+from ._base import _Sample
 from .registry import _FAMILIES
 
 
@@ -33,8 +34,9 @@ def _exponential_ad_p(a2: float, n: int) -> float:
 
 
 def _ad_p_value(
-    name: str, xs: np.ndarray, params: dict[str, float], a2: float, case3: Any = None
+    name: str, smp: _Sample, params: dict[str, float], a2: float, case3: Any = None
 ) -> tuple[float | None, str]:
+    xs = smp.xs
     n = xs.size
     if name in ("normal", "lognormal"):
         from ..normality import AD_MIN_N, ad_p_value
@@ -45,7 +47,7 @@ def _ad_p_value(
         if case3 is not None and case3.n == n:  # the same A², already computed (analyze)
             a2_case3 = case3.statistic
         else:
-            v = xs if name == "normal" else np.log(xs)
+            v = xs if name == "normal" else smp.lx
             mu = float(v.mean())
             sd = float(np.sqrt(_vdot(v - mu, v - mu) / (n - 1)))
             a2_case3 = anderson_darling_a2(*_log_phi_pair_sorted((v - mu) / sd))

@@ -7,20 +7,22 @@ import math
 import numpy as np
 from scipy import stats
 
-from ._base import _Bound, _Family
+from ._base import _Bound, _Family, _log_cdf_from_neg_u, _Sample
 
 
-def _fit_exponential(xs: np.ndarray) -> dict[str, float]:
-    return {"scale": float(xs.mean())}
+def _fit_exponential(s: _Sample) -> dict[str, float]:
+    return {"scale": float(s.xs.mean())}
 
 
-def _ll_exponential(xs: np.ndarray, p: dict[str, float]) -> float:
+def _ll_exponential(s: _Sample, p: dict[str, float]) -> float:
+    xs = s.xs
     return float(-xs.size * math.log(p["scale"]) - xs.sum() / p["scale"])
 
 
-def _lcs_exponential(xs: np.ndarray, p: dict[str, float]):
-    u = xs / p["scale"]
-    return np.log(-np.expm1(-u)), -u
+def _lcs_exponential(s: _Sample, p: dict[str, float]):
+    neg_u = s.xs / p["scale"]
+    np.negative(neg_u, out=neg_u)  # −u formed once: it is ln(1 − F)
+    return _log_cdf_from_neg_u(neg_u), neg_u
 
 
 EXPONENTIAL = _Family(

@@ -12,6 +12,7 @@ import numpy as np
 from .._validation import check_sample
 from ..errors import ConfigError, DataError, DomainError
 from ..normality import _trusted_sorted_ok, anderson_darling_a2
+from ._base import _Sample
 from .adtest import _ad_p_value
 from .registry import _FAMILIES
 from .results import DistributionFit, DistributionRanking
@@ -44,16 +45,19 @@ def _support_problem(name: str, xs: np.ndarray) -> str | None:
     return None
 
 
-def _fit_sorted(name: str, xs: np.ndarray, case3: Any = None) -> DistributionFit:
+def _fit_sorted(name: str, smp: _Sample, case3: Any = None) -> DistributionFit:
+    """Fit ``name`` to the sorted sample in ``smp`` (shared by the fits of one call, so
+    ln x and the like are computed once)."""
     fam = _FAMILIES[name]
+    xs = smp.xs
     problem = _support_problem(name, xs)
     if problem:
         raise DomainError(problem)
-    params = {k: float(v) for k, v in fam.fit(xs).items()}
-    ll = fam.loglik(xs, params)
-    lc, ls = fam.log_cdf_sf(xs, params)
+    params = {k: float(v) for k, v in fam.fit(smp).items()}
+    ll = fam.loglik(smp, params)
+    lc, ls = fam.log_cdf_sf(smp, params)
     a2 = anderson_darling_a2(lc, ls)
-    p, note = _ad_p_value(name, xs, params, a2, case3)
+    p, note = _ad_p_value(name, smp, params, a2, case3)
     return DistributionFit(
         name=name,
         params=params,
@@ -117,7 +121,7 @@ def fit_distribution(x: Any, name: str) -> DistributionFit:
     """
     name = _check_name(name, "fit_distribution")
     xs = np.sort(check_sample(x, "x", "fit_distribution", min_n=FIT_MIN_N))
-    return _fit_sorted(name, xs)
+    return _fit_sorted(name, _Sample(xs))
 
 
 def fit_distributions(
@@ -166,8 +170,13 @@ def fit_distributions(
     xs = _sorted
     if xs is None or not _trusted_sorted_ok(xs, FIT_MIN_N):
         xs = np.sort(check_sample(x, "x", func, min_n=FIT_MIN_N))  # the usual messages
-    fits: list[DistributionFit] = []
-    skipped: list[tuple[str, str]] = []
+    fits, skipped = _fit_each(xs, chosen, _case3, _zero_step)
+    return _ranking(fits, skipped, chosen)
+
+
+def _prepare(xs: np.ndarray, _zero_step: float | None = None) -> tuple[_Sample, _Sample, str]:
+    """The shared samples of sorted, checked ``xs`` for :func:`_fit_each`: (as read, with
+    gauge zeros placed for the positive families, the note that says so)."""
     # ``_zero_step`` (private, for analyze()): the gauge step h of rounded readings. A
     # reading of exactly 0 with no negative value is then a rounded small value in
     # [0, h/2); the positive families are fitted with it at h/4, the middle of that
@@ -181,13 +190,28 @@ def fit_distributions(
             xs_pos[:k] = _zero_step / 4.0
             zero_note = (f" {k} reading(s) of 0 were taken as {_zero_step / 4.0:g}, the middle of their rounding "
                          f"interval 0 to {_zero_step / 2.0:g} (gauge step {_zero_step:g}).")
+    # ln x and the like, computed once for all fits of this call (this call's own objects)
+    smp = _Sample(xs)
+    return smp, (smp if xs_pos is xs else _Sample(xs_pos)), zero_note
+
+
+def _fit_each(xs: np.ndarray, chosen, _case3: dict | None = None, _zero_step: float | None = None,
+              prepared: tuple | None = None) -> tuple[list[DistributionFit], list[tuple[str, str]]]:
+    """Fit each family in ``chosen`` to sorted, checked ``xs``: (fits, skipped), in the
+    order of ``chosen``. analyze() calls it once per family, maybe in two threads, with one
+    ``prepared`` (:func:`_prepare`) for all (qcnorm.analysis.fitlane); :func:`_ranking`
+    then merges them. Sharing ``prepared`` between threads is safe: its memo only ever
+    holds values that are the same whoever computes them first."""
+    fits: list[DistributionFit] = []
+    skipped: list[tuple[str, str]] = []
+    smp, smp_pos, zero_note = prepared if prepared is not None else _prepare(xs, _zero_step)
     for nm in dict.fromkeys(chosen):
         use_pos = zero_note and _FAMILIES[nm].support == "positive"
         try:
             # ``_case3`` (private, for analyze()): {"normal": ADResult of x, "lognormal":
             # ADResult of ln x} (case 3 of the normal test), already computed elsewhere.
             if use_pos:
-                f = _fit_sorted(nm, xs_pos)
+                f = _fit_sorted(nm, smp_pos)
                 # Likelihood as the transform candidates score censored zeros (selection.py):
                 # each 0 reading enters as ln P(0 < X ≤ h/2), not as a density at h/4, so the
                 # AICs of both routes stay comparable.
@@ -197,9 +221,18 @@ def fit_distributions(
                 fits.append(dataclasses.replace(f, loglik=ll, aic=2.0 * f.n_params - 2.0 * ll,
                                                 note=f.note + zero_note))
             else:
-                fits.append(_fit_sorted(nm, xs, (_case3 or {}).get(nm)))
+                fits.append(_fit_sorted(nm, smp, (_case3 or {}).get(nm)))
         except DataError as exc:  # includes DomainError
             skipped.append((nm, str(exc)))
+    return fits, skipped
+
+
+def _ranking(fits: list[DistributionFit], skipped: list[tuple[str, str]], chosen) -> DistributionRanking:
+    """Rank fits by AIC (ties keep the order of ``chosen``) and list the skipped ones in
+    that order; raises DataError when nothing could be fitted."""
+    order = {nm: i for i, nm in enumerate(dict.fromkeys(chosen))}
+    fits = sorted(fits, key=lambda f: order[f.name])
+    skipped = sorted(skipped, key=lambda s: order[s[0]])
     if not fits:
         reasons = "; ".join(f"{nm}: {why}" for nm, why in skipped)
         raise DataError(f"No distribution could be fitted to these data. {reasons}")

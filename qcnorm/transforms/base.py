@@ -21,6 +21,7 @@ says how it is rebuilt from stored parameters (``param_keys``, ``fitted_names``,
 from __future__ import annotations
 
 import math
+import threading
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any, ClassVar
@@ -101,15 +102,17 @@ class _SharedLogs:
         self.xs = xs
         self._ok = {"log": bool(xs.size and xs[0] > 0), "log1p": bool(xs.size and xs[0] >= 0)}
         self._arrays: dict[str, np.ndarray] = {}
+        self._lock = threading.Lock()  # candidates may be fitted on two threads
 
     def get(self, x: np.ndarray, kind: str) -> np.ndarray | None:
         if x is not self.xs or not self._ok[kind]:
             return None
-        a = self._arrays.get(kind)
-        if a is None:
-            a = np.log(x) if kind == "log" else np.log1p(x)
-            a.flags.writeable = False
-            self._arrays[kind] = a
+        with self._lock:
+            a = self._arrays.get(kind)
+            if a is None:
+                a = np.log(x) if kind == "log" else np.log1p(x)
+                a.flags.writeable = False
+                self._arrays[kind] = a
         return a
 
 
