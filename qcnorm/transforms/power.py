@@ -16,7 +16,7 @@ import numpy as np
 from ..errors import ConfigError
 from ..normality import _vdot
 from .base import CONVENIENT_LAMBDAS, LAMBDA_TOL, MIN_N, Domain, Transform, _fmt, _is_number, _shared_log
-from .lambda_newton import _GBuffers, profile_derivs
+from .lambda_newton import profile_pass
 from .lambda_search import _fit_lambda, _LambdaFit
 from .zeros import _check_zero_limit, _fit_with_zero_readings, _restore_zero_value, _set_zero_value, _zero_params, _zero_words
 
@@ -35,16 +35,15 @@ class _BoxCoxProfile:
         self.sum_l = float(L.sum())
         self.var_u = _vdot(self.u, self.u) / self.n
         self.buf = np.empty_like(self.u)
-        self._gb: _GBuffers | None = None
+        self._amax: float | None = None
 
     def derivs(self, lam: float, order: int) -> tuple[float, float, float] | None:
         """(l, l', l'') at λ in one pass (l'' only for order 2; see ``lambda_newton``):
         y = expm1(λu)/λ has the variance e^{−2λL̄}·var of the Box–Cox values."""
-        if self._gb is None:
-            self._gb = _GBuffers(self.u)
+        if self._amax is None:
+            self._amax = float(np.max(np.abs(self.u)))
         with np.errstate(over="ignore", invalid="ignore"):
-            self._gb.fill(lam, order)
-            r = profile_derivs([(self._gb, 1.0, 1.0)], self.n, order)
+            r = profile_pass([(self.u, self._amax, lam, 1.0, 1.0)], self.n, order)
         if r is None:
             return None
         n = self.n
@@ -78,18 +77,16 @@ class _YeoJohnsonProfile:
         self.s = float(self.p.sum() - self.m.sum())
         self.bp = np.empty_like(self.p)
         self.bm = np.empty_like(self.m)
-        self._gb: tuple[_GBuffers, _GBuffers] | None = None
+        self._amax: tuple[float, float] | None = None
 
     def derivs(self, lam: float, order: int) -> tuple[float, float, float] | None:
         """(l, l', l'') at λ in one pass (see ``lambda_newton``): y = g(λ; ln(1+x)) for
         x ≥ 0 and −g(2 − λ; ln(1−x)) for x < 0."""
-        if self._gb is None:
-            self._gb = (_GBuffers(self.p), _GBuffers(self.m))
-        gp, gm = self._gb
+        if self._amax is None:
+            self._amax = tuple(float(np.max(v)) if v.size else 0.0 for v in (self.p, self.m))
+        parts = [(self.p, self._amax[0], lam, 1.0, 1.0), (self.m, self._amax[1], 2.0 - lam, -1.0, -1.0)]
         with np.errstate(over="ignore", invalid="ignore"):
-            gp.fill(lam, order)
-            gm.fill(2.0 - lam, order)
-            r = profile_derivs([(gp, 1.0, 1.0), (gm, -1.0, -1.0)], self.n, order)
+            r = profile_pass(parts, self.n, order)
         if r is None:
             return None
         return -0.5 * self.n * r[0] + (lam - 1.0) * self.s, r[1] + self.s, r[2]
