@@ -49,6 +49,17 @@ PALETTE = {
 _FONT = dict(family="Inter, 'Segoe UI', 'DejaVu Sans', sans-serif", size=13, color="#1E2A32")
 MAX_BINS = 60
 MARKERS_UP_TO = 600  # longer charts are drawn as lines (signals keep their markers)
+#: From this many points the line of a chart carries a short hover (point number and
+#: value) instead of a text per point: 200,000 texts made a 9 MB figure that took seconds
+#: to build. Signals, pattern points and excluded points keep their full text.
+SHORT_HOVER_FROM = 5_000
+#: Longer lines are drawn through the lowest and highest point of each of
+#: ``ENVELOPE_BUCKETS`` equal runs of points (so every extreme stays visible); every
+#: signal, pattern and excluded point is still drawn as its own marker, and the chart
+#: title says so. A browser draws 10^5 points as SVG in seconds (WebGL without a
+#: graphics card was slower still, measured in headless Chromium).
+ENVELOPE_FROM = 20_000
+ENVELOPE_BUCKETS = 5_000
 
 
 # --------------------------------------------------------------------------------------
@@ -267,6 +278,26 @@ def signal_labels(triggers: dict[int, list[str]], n: int, y: Any = None) -> list
     return out
 
 
+def envelope_indices(y: Any, buckets: int = ENVELOPE_BUCKETS, start: int = ENVELOPE_FROM) -> np.ndarray:
+    """Indices of the points a long line is drawn through: all of them below ``start``
+    points, else the lowest and highest of each of ``buckets`` equal runs of points (in
+    time order; NaN gaps stay gaps where a whole run is NaN)."""
+    y = np.asarray(y, dtype=float)
+    n = y.size
+    if n < start:
+        return np.arange(n)
+    edges = np.linspace(0, n, buckets + 1).astype(np.int64)
+    starts = edges[:-1][np.diff(edges) > 0]
+    run = np.repeat(np.arange(starts.size), np.diff(np.append(starts, n)))
+    keep = [np.array([0, n - 1])]
+    for vals, reduce in ((np.where(np.isnan(y), np.inf, y), np.minimum),
+                         (np.where(np.isnan(y), -np.inf, y), np.maximum)):
+        at = np.flatnonzero(vals == reduce.reduceat(vals, starts)[run])  # where each run's extreme is
+        r = run[at]
+        keep.append(at[np.r_[True, r[1:] != r[:-1]]])  # the first one per run
+    return np.unique(np.concatenate(keep))
+
+
 def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go.Figure:
     """The control chart in measurement units, limits back-transformed (asymmetric).
 
@@ -283,24 +314,31 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
     rules = _rules_per_point(ch.violations, n)
     flagged = np.array([bool(r) for r in rules], dtype=bool) & ~excl
     # labels, times and reasons come from the file or were typed: shown as text, never as markup
-    labels = np.array([html_text(x) for x in np.asarray(ch.labels).astype(str)], dtype=object)
-    extra = [""] * n if hover is None else [html_text(h) for h in hover]
+    labels = np.asarray(ch.labels).astype(str)
     reasons = {e.index: html_text(e.reason) for e in ch.excluded}
-    text = [
-        f"point {i + 1} · {labels[i]}{(' · ' + extra[i]) if extra[i] else ''}"
-        + (f"<br>rules: {', '.join(rules[i])}" if rules[i] else "")
-        + (f"<br>excluded: {reasons[i]}" if i in reasons else "")
-        for i in range(n)
-    ]
+
+    def point_text(i: int) -> str:
+        extra = "" if hover is None else html_text(hover[i])
+        return (f"point {i + 1} · {html_text(labels[i])}{(' · ' + extra) if extra else ''}"
+                + (f"<br>rules: {', '.join(rules[i])}" if rules[i] else "")
+                + (f"<br>excluded: {reasons[i]}" if i in reasons else ""))
+
     name, what = _CHART_NAMES.get(ch.chart, (ch.chart, "point"))
     units = analysis.units
     fig = go.Figure()
-    fig.add_trace(go.Scatter(
-        x=xs, y=pts, mode="lines+markers" if n <= MARKERS_UP_TO else "lines", name=what,
-        line=dict(color=PALETTE["ink"], width=1.2 if n <= MARKERS_UP_TO else 0.8),
-        marker=dict(size=6 if n <= 300 else 4, color=PALETTE["ink"], symbol="circle"),
-        text=text, hovertemplate="%{text}<br>%{y:.5g}<extra></extra>",
-    ))
+    if n < SHORT_HOVER_FROM:
+        fig.add_trace(go.Scatter(
+            x=xs, y=pts, mode="lines+markers" if n <= MARKERS_UP_TO else "lines", name=what,
+            line=dict(color=PALETTE["ink"], width=1.2 if n <= MARKERS_UP_TO else 0.8),
+            marker=dict(size=6 if n <= 300 else 4, color=PALETTE["ink"], symbol="circle"),
+            text=[point_text(i) for i in range(n)], hovertemplate="%{text}<br>%{y:.5g}<extra></extra>",
+        ))
+    else:
+        keep = envelope_indices(pts)
+        fig.add_trace(go.Scatter(
+            x=xs[keep], y=pts[keep], mode="lines", name=what, line=dict(color=PALETTE["ink"], width=0.8),
+            hovertemplate=f"{what} %{{x}}<br>%{{y:.5g}}<extra></extra>",
+        ))
     ucl, lcl = np.asarray(lu.ucl, dtype=float), np.asarray(lu.lcl, dtype=float)
     varying = ucl.size > 1 and np.nanmax(ucl) - np.nanmin(ucl) > 1e-12 * max(1.0, abs(float(np.nanmax(ucl))))
     _hline(fig, 0.5, n + 0.5, lu.center, "centre", PALETTE["center"], "dot", width=1.4)
@@ -318,7 +356,7 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
         fig.add_trace(go.Scatter(
             x=xs[excl], y=pts[excl], mode="markers", name="excluded (assignable cause)",
             marker=dict(size=11, color=PALETTE["excluded"], symbol="circle-open", line=dict(width=2)),
-            text=[text[i] for i in np.flatnonzero(excl)], hovertemplate="%{text}<extra></extra>",
+            text=[point_text(i) for i in np.flatnonzero(excl)], hovertemplate="%{text}<extra></extra>",
         ))
     # signals: the point where a rule triggers gets a filled red diamond and the rule ids;
     # the other points of the pattern get a red ring (no text, so long runs stay readable)
@@ -335,7 +373,7 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
             x=xs[pattern], y=pts[pattern], mode="markers", name="part of a signal pattern",
             marker=dict(size=10, color="rgba(0,0,0,0)", symbol="circle-open",
                         line=dict(color=PALETTE["signal"], width=1.6)),
-            customdata=[text[i] for i in pattern], hovertemplate="%{customdata}<extra></extra>",
+            customdata=[point_text(i) for i in pattern], hovertemplate="%{customdata}<extra></extra>",
         ))
     if triggers:
         idx = np.array(sorted(triggers))
@@ -345,12 +383,14 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
                         line=dict(color="white", width=1)),
             text=signal_labels(triggers, n, pts), textposition="top center",
             textfont=dict(size=11, color=PALETTE["signal"]),
-            customdata=[text[i] for i in idx], hovertemplate="%{customdata}<extra></extra>",
+            customdata=[point_text(i) for i in idx], hovertemplate="%{customdata}<extra></extra>",
         ))
     phase = "Phase II (frozen baseline)" if ch.phase == "II" else "Phase I"
     title = f"{name} chart in measurement units · {phase}"
     if analysis.transform.name != "none":
         title += " · limits from the transformed scale"
+    if n >= ENVELOPE_FROM:
+        title += f" · line through the extremes of {ENVELOPE_BUCKETS:,} runs of points, every signal marked"
     _layout(fig, title, "point (time order)" if ch.chart == "individuals" else "subgroup (time order)",
             f"{display_name(analysis)}{_units(units)}", height=height)
     return fig
@@ -369,8 +409,9 @@ def dispersion_figure(analysis: Any, *, height: int = 320) -> go.Figure:
             flagged[v.index] = True
     name = _DISPERSION_NAMES.get(d.statistic, d.statistic)
     fig = go.Figure()
+    keep = envelope_indices(vals)
     fig.add_trace(go.Scatter(
-        x=xs, y=vals, mode="lines+markers" if n <= MARKERS_UP_TO else "lines", name=name.lower(),
+        x=xs[keep], y=vals[keep], mode="lines+markers" if n <= MARKERS_UP_TO else "lines", name=name.lower(),
         line=dict(color=PALETTE["teal"], width=1.1),
         marker=dict(size=5 if n <= 300 else 3, color=PALETTE["teal"]),
         hovertemplate="point %{x}: %{y:.4g}<extra></extra>", connectgaps=False,

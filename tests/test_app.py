@@ -275,3 +275,33 @@ def test_shape_page_states_how_the_box_cox_lambda_was_used():
     assert exact.transform.params_["lambda"] == exact.transform.params_["lambda_mle"]
     assert any(exact.transform_reason == i.value for i in at.info)
     assert any("rounding to a convenient value was switched off" in i.value for i in at.info)
+
+
+def test_long_chart_lists_signals_and_takes_other_points_by_number(rng):
+    """A chart longer than PICK_LIST_MAX lists only its signals for exclusion; other
+    points are typed by number, and a wrong number gets a message instead of an exclusion."""
+    from qcnorm.ui.stability_page import PICK_LIST_MAX, _typed_points
+
+    assert _typed_points("12, 40 41;12", 50) == ([11, 39, 40], [])
+    assert _typed_points("0, 51, x", 50)[1] == ["0", "51", "x"]
+    n = PICK_LIST_MAX + 500
+    x = np.round(rng.normal(10.0, 1.0, n), 3)
+    x[100] = 30.0  # a clear signal
+    data = ("Value (mm)\n" + "\n".join(str(v) for v in x) + "\n").encode()
+    at = _upload(_app().run(), "long.csv", data)
+    _go(at, "stability")
+    options = at.multiselect(key="qc_exclude_pick").options
+    a = analyze(x, units="mm")
+    flagged = {v.index for v in tuple(a.chart.violations) + tuple(a.chart.dispersion.violations)}
+    assert 100 in flagged and len(options) == len(flagged) < 50
+    at.text_input(key="qc_exclude_typed").set_value("2600")
+    at.text_input(key="qc_exclude_reason").set_value("gauge dropped")
+    [b for b in at.button if b.label.startswith("Exclude")][0].click().run()
+    assert not at.exception
+    assert "qc_exclusions" not in at.session_state or not at.session_state["qc_exclusions"]
+    assert any("Not a point of this chart: 2600" in w.value for w in at.warning)
+    at.text_input(key="qc_exclude_typed").set_value("7")
+    at.text_input(key="qc_exclude_reason").set_value("gauge dropped")
+    [b for b in at.button if b.label.startswith("Exclude")][0].click().run()
+    assert not at.exception
+    assert at.session_state["qc_exclusions"] == {6: "gauge dropped"}

@@ -773,15 +773,26 @@ def test_chart_carries_its_false_alarm_rate(rng):
 
 def test_long_runs_state_the_expected_count_of_chance_signals():
     """Over 200,000 stable values nearly every run signals somewhere, so the sentence gives
-    the count expected from chance: n × per-point rate. Rule 1 alone is 2Φ(−3) = 0.0027 per
-    point (ARL 370.4; a fact of the trade); the default adds the moving-range chart's 0.1 %
-    probability limit, so its count must be above 200,000 × 0.0027 = 540."""
+    the count expected from chance: rule 1 at 2Φ(−3) = 0.0027 per point (a fact of the trade;
+    scipy.stats.norm.sf as the reference) plus the moving-range chart's 0.1 % per value."""
     fa = false_alarm_rate("beyond_limits", 200_000)
+    expected = 200_000 * 2 * stats.norm.sf(3.0) + 199_999 * 0.001
+    assert fa.expected_count() == pytest.approx(expected, rel=1e-12)
     words = fa.plain_words()
-    expected = 200_000 * fa.per_point
-    assert expected > 200_000 * 2 * stats.norm.sf(3.0)
     assert "200,000 values" in words and "almost every such run" in words
     assert f"about {expected:,.0f} signals are expected from chance alone" in words
     assert "nearly 100" not in words and "about nearly" not in words
-    short = false_alarm_rate("beyond_limits", 100).plain_words()
-    assert "expected from chance alone" not in short  # one or two chance signals: no count
+    assert "expected from chance alone" not in false_alarm_rate("beyond_limits", 100).plain_words()
+    assert false_alarm_rate("western_electric", 200_000).expected_count() is None  # runs: no count
+    assert false_alarm_rate("beyond_limits", 1000, dispersion=False).expected_count() == pytest.approx(
+        1000 * 2 * stats.norm.sf(3.0))
+
+
+def test_expected_count_matches_a_stable_simulated_run():
+    """Signals on 100,000 independent normal values (Phase I limits from the same data):
+    the chart's own count lies within 4 Poisson SDs of the stated expectation."""
+    rng = np.random.default_rng(13)
+    ch = control_chart(rng.normal(size=100_000))
+    count = len(ch.violations) + len(ch.dispersion.violations)
+    exp = ch.false_alarm.expected_count()
+    assert abs(count - exp) < 4 * math.sqrt(exp), (count, exp)

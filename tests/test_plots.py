@@ -165,3 +165,35 @@ def test_plots_do_not_import_streamlit():
 
     code = "import sys, qcnorm.plots; sys.exit(1 if 'streamlit' in sys.modules else 0)"
     assert subprocess.run([sys.executable, "-c", code]).returncode == 0
+
+
+def test_long_line_keeps_every_runs_extremes():
+    """The envelope of a long line: each of the equal runs of points keeps its lowest and
+    highest value (second opinion: numpy's own min/max per run); NaN stays a gap."""
+    rng = np.random.default_rng(4)
+    y = rng.normal(size=123_457)
+    y[[7, 50_000]] = np.nan
+    keep = plots.envelope_indices(y)
+    assert keep.size <= 2 * plots.ENVELOPE_BUCKETS + 2 and np.all(np.diff(keep) > 0)
+    edges = np.linspace(0, y.size, plots.ENVELOPE_BUCKETS + 1).astype(int)
+    for a, b in zip(edges[:-1], edges[1:]):
+        mine = y[keep[(keep >= a) & (keep < b)]]
+        assert np.nanmin(mine) == np.nanmin(y[a:b]) and np.nanmax(mine) == np.nanmax(y[a:b])
+    assert keep[0] == 0 and keep[-1] == y.size - 1
+    np.testing.assert_array_equal(plots.envelope_indices(y[:500]), np.arange(500))
+
+
+def test_long_control_chart_draws_every_signal_with_a_small_figure():
+    rng = np.random.default_rng(8)
+    x = rng.normal(10.0, 1.0, 30_000)
+    x[[100, 20_000]] = [20.0, 0.0]  # two clear signals among chance ones
+    a = analyze(x, transform="none")
+    fig = plots.control_figure(a)
+    line = fig.data[0]
+    assert len(line.x) <= 2 * plots.ENVELOPE_BUCKETS + 2 and line.text is None
+    assert max(line.y) == 20.0 and min(line.y) == 0.0  # the extremes are on the line
+    signals = next(t for t in fig.data if t.name == "signal (run rule)")
+    flagged = {v.index for v in a.chart.violations}
+    assert {int(i) - 1 for i in signals.x} == flagged and {101, 20_001} <= set(int(i) for i in signals.x)
+    assert "every signal marked" in fig.layout.title.text
+    assert len(fig.to_json()) < 2_000_000

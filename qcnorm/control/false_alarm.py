@@ -118,11 +118,24 @@ class FalseAlarmRate(Result):
             share = "about " + (f"{pct:.0f} %" if pct >= 1.0 else f"{pct:.1f} %") + " of such runs"
         words = (f"With these rules, a stable process charted over {self.n:,} {what} would still raise at "
                  f"least one signal in {share} (about one false signal in {self.arl:,.0f} {what})")
-        expected = self.n / self.arl if self.arl > 0 else 0.0
-        if expected >= 2.0:  # a long run: the count of chance signals is the useful figure
-            words += (f"; about {expected:,.0f} signals are expected from chance alone, so compare the "
-                      f"count of signals with that, and look for their causes")
+        expected = self.expected_count()
+        if expected is not None and expected >= 2.0:  # a long run: the count of chance signals helps
+            words += (f"; about {expected:,.0f} signals are expected from chance alone over these {what}, "
+                      f"so compare the count of signals with that, and look for their causes")
         return words + "."
+
+    def expected_count(self) -> float | None:
+        """Signals expected from chance over the ``n`` points, counted as the chart counts them
+        (each point beyond a limit, on either chart): n·2Φ(−3) for rule 1 plus, when the
+        dispersion chart at its 0.1 % probability limit is included, 0.001 per dispersion
+        value (n − 1 moving ranges, or n subgroup ranges/SDs). Only for "beyond_limits":
+        signals of the zone rules come in runs, so no simple count is stated for them."""
+        if self.rules != "beyond_limits":
+            return None
+        count = self.n * math.erfc(3.0 / math.sqrt(2.0))  # 2Φ(−3)
+        if "probability limit" in self.method:  # the dispersion chart was included
+            count += (self.n - 1 if self.chart == "individuals" else self.n) * DISPERSION_ALPHA
+        return count
 
 
 def _zone_chain(spec: tuple[tuple, ...]):

@@ -81,6 +81,28 @@ def _limits_row(a) -> None:
                f"phase {ch.phase}; {ch.n_used} of {ch.n_values} values used for the limits.")
 
 
+#: Longest chart whose every point is offered in the exclusion list (a list of 200,000
+#: options took seconds to send and to open); longer charts list their signals and take
+#: other points typed by number.
+PICK_LIST_MAX = 2_000
+
+
+def _typed_points(text: str, n: int) -> tuple[list[int], list[str]]:
+    """Point numbers typed as "12, 40 41" -> (0-based indices, the entries that are not
+    points 1 … n)."""
+    ok: list[int] = []
+    bad: list[str] = []
+    for tok in str(text or "").replace(";", ",").replace(" ", ",").split(","):
+        tok = tok.strip()
+        if not tok:
+            continue
+        if tok.isdigit() and 1 <= int(tok) <= n:
+            ok.append(int(tok) - 1)
+        else:
+            bad.append(common.md(tok[:20]))
+    return sorted(set(ok)), bad
+
+
 def _exclusion_section(a) -> None:
     ch = a.chart
     labels = np.asarray(ch.labels).astype(str)
@@ -90,17 +112,29 @@ def _exclusion_section(a) -> None:
     st.subheader("Assignable causes")
     st.caption("Exclude a point only when a cause has been found (tool change, wrong setting, gauge fault…). "
                "The limits are then re-estimated without it (Phase I); the point stays on the chart in grey.")
-    candidates = [i for i in flagged if i not in ex] + [i for i in range(n) if i not in ex and i not in flagged]
+    flagged_set = set(flagged)
+    long_chart = n > PICK_LIST_MAX
+    candidates = [i for i in flagged if i not in ex]
+    if not long_chart:  # a long chart lists its signals only; other points are typed by number
+        candidates += [i for i in range(n) if i not in ex and i not in flagged_set]
     with st.form("qc_exclude_form", clear_on_submit=True):
         c1, c2 = st.columns([1, 1.4])
         pick = c1.multiselect(
-            "Points", candidates, key="qc_exclude_pick",
-            format_func=lambda i: f"{i + 1} · {labels[i]}" + ("  (signal)" if i in flagged else ""),
+            "Points with a signal" if long_chart else "Points", candidates, key="qc_exclude_pick",
+            format_func=lambda i: f"{i + 1} · {labels[i]}" + ("  (signal)" if i in flagged_set else ""),
             help="Points with a signal are listed first.")
+        typed = (c1.text_input("Other points, by number", key="qc_exclude_typed", placeholder="e.g. 1204, 1310",
+                               help=f"This chart has {n:,} points: only those with a signal are listed above.")
+                 if long_chart else "")
         reason = c2.text_input("Cause found", key="qc_exclude_reason", placeholder="e.g. insert changed at 14:10")
         go_ = st.form_submit_button("Exclude and re-estimate limits", type="primary")
     if go_:
-        if not pick:
+        extra, bad = _typed_points(typed, n)
+        pick = list(pick) + [i for i in extra if i not in ex]
+        if bad:
+            st.warning(f"Not a point of this chart: {', '.join(bad)}. Type point numbers from 1 to {n:,}, "
+                       "separated by commas.")
+        elif not pick:
             st.warning("Choose at least one point to exclude.")
         elif not reason.strip():
             st.warning("Write the cause that was found: an exclusion without a reason cannot be reviewed.")
