@@ -18,12 +18,20 @@ hollow red diamonds for points that break a run rule.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 import plotly.graph_objects as go
 
+from ._drawing import (
+    ENVELOPE_BUCKETS,
+    ENVELOPE_FROM,
+    MAX_BINS,
+    SHORT_HOVER_FROM,
+    Bins,
+    envelope_indices,
+    histogram_bins,
+)
 from ._markup import html_text
 
 __all__ = [
@@ -47,66 +55,7 @@ PALETTE = {
 }
 
 _FONT = dict(family="Inter, 'Segoe UI', 'DejaVu Sans', sans-serif", size=13, color="#1E2A32")
-MAX_BINS = 60
 MARKERS_UP_TO = 600  # longer charts are drawn as lines (signals keep their markers)
-#: From this many points the line of a chart carries a short hover (point number and
-#: value) instead of a text per point: 200,000 texts made a 9 MB figure that took seconds
-#: to build. Signals, pattern points and excluded points keep their full text.
-SHORT_HOVER_FROM = 5_000
-#: Longer lines are drawn through the lowest and highest point of each of
-#: ``ENVELOPE_BUCKETS`` equal runs of points (so every extreme stays visible); every
-#: signal, pattern and excluded point is still drawn as its own marker, and the chart
-#: title says so. A browser draws 10^5 points as SVG in seconds (WebGL without a
-#: graphics card was slower still, measured in headless Chromium).
-ENVELOPE_FROM = 20_000
-ENVELOPE_BUCKETS = 5_000
-
-
-# --------------------------------------------------------------------------------------
-# histogram bins (drawing arithmetic)
-# --------------------------------------------------------------------------------------
-
-
-@dataclass(frozen=True, slots=True)
-class Bins:
-    """Histogram bin edges and counts; ``counts.sum()`` equals the number of finite values."""
-
-    edges: np.ndarray
-    counts: np.ndarray
-
-    @property
-    def centers(self) -> np.ndarray:
-        return 0.5 * (self.edges[:-1] + self.edges[1:])
-
-    @property
-    def widths(self) -> np.ndarray:
-        return np.diff(self.edges)
-
-
-def histogram_bins(x: Any, max_bins: int = MAX_BINS) -> Bins:
-    """Bin edges and counts with every finite value inside a bin.
-
-    numpy's "auto" rule (the larger of Sturges and Freedman–Diaconis), capped at
-    ``max_bins``; ``numpy.histogram`` closes the last bin on the right, so the maximum
-    is counted. A (nearly) constant sample gets one bin around the values, wide enough
-    to hold them all.
-    """
-    v = np.asarray(x, dtype=float)
-    v = v[np.isfinite(v)]
-    if v.size == 0:
-        return Bins(np.array([0.0, 1.0]), np.array([0]))
-    lo, hi = float(v.min()), float(v.max())
-    if hi - lo <= 1e-12 * max(1.0, abs(lo), abs(hi)):
-        # (nearly) constant: one bin around the values, wide enough to hold them all
-        mid = 0.5 * (lo + hi)
-        half = max(hi - lo, 0.05 * max(abs(lo), abs(hi))) or 0.5
-        edges = np.array([mid - half, mid + half])
-    else:
-        edges = np.histogram_bin_edges(v, bins="auto")
-        if edges.size - 1 > max_bins:
-            edges = np.linspace(lo, hi, max_bins + 1)
-    counts, edges = np.histogram(v, bins=edges)
-    return Bins(edges=edges, counts=counts)
 
 
 # --------------------------------------------------------------------------------------
@@ -278,24 +227,35 @@ def signal_labels(triggers: dict[int, list[str]], n: int, y: Any = None) -> list
     return out
 
 
-def envelope_indices(y: Any, buckets: int = ENVELOPE_BUCKETS, start: int = ENVELOPE_FROM) -> np.ndarray:
-    """Indices of the points a long line is drawn through: all of them below ``start``
-    points, else the lowest and highest of each of ``buckets`` equal runs of points (in
-    time order; NaN gaps stay gaps where a whole run is NaN)."""
-    y = np.asarray(y, dtype=float)
-    n = y.size
-    if n < start:
-        return np.arange(n)
-    edges = np.linspace(0, n, buckets + 1).astype(np.int64)
-    starts = edges[:-1][np.diff(edges) > 0]
-    run = np.repeat(np.arange(starts.size), np.diff(np.append(starts, n)))
-    keep = [np.array([0, n - 1])]
-    for vals, reduce in ((np.where(np.isnan(y), np.inf, y), np.minimum),
-                         (np.where(np.isnan(y), -np.inf, y), np.maximum)):
-        at = np.flatnonzero(vals == reduce.reduceat(vals, starts)[run])  # where each run's extreme is
-        r = run[at]
-        keep.append(at[np.r_[True, r[1:] != r[:-1]]])  # the first one per run
-    return np.unique(np.concatenate(keep))
+def _signal_traces(fig: go.Figure, ch: Any, xs: np.ndarray, pts: np.ndarray, excl: np.ndarray,
+                   flagged: np.ndarray, n: int, point_text) -> None:
+    """Signals: the point where a rule triggers gets a filled red diamond and the rule ids;
+    the other points of the pattern get a red ring (no text, so long runs stay readable)."""
+    triggers: dict[int, list[str]] = {}
+    for v in ch.violations:
+        if 0 <= v.index < n and not excl[v.index]:
+            triggers.setdefault(int(v.index), [])
+            if v.rule not in triggers[int(v.index)]:
+                triggers[int(v.index)].append(v.rule)
+    pattern = np.flatnonzero(flagged)
+    pattern = pattern[~np.isin(pattern, list(triggers))]
+    if pattern.size:
+        fig.add_trace(go.Scatter(
+            x=xs[pattern], y=pts[pattern], mode="markers", name="part of a signal pattern",
+            marker=dict(size=10, color="rgba(0,0,0,0)", symbol="circle-open",
+                        line=dict(color=PALETTE["signal"], width=1.6)),
+            customdata=[point_text(i) for i in pattern], hovertemplate="%{customdata}<extra></extra>",
+        ))
+    if triggers:
+        idx = np.array(sorted(triggers))
+        fig.add_trace(go.Scatter(
+            x=xs[idx], y=pts[idx], mode="markers+text", name="signal (run rule)",
+            marker=dict(size=11, color=PALETTE["signal"], symbol="diamond",
+                        line=dict(color="white", width=1)),
+            text=signal_labels(triggers, n, pts), textposition="top center",
+            textfont=dict(size=11, color=PALETTE["signal"]),
+            customdata=[point_text(i) for i in idx], hovertemplate="%{customdata}<extra></extra>",
+        ))
 
 
 def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go.Figure:
@@ -358,33 +318,7 @@ def control_figure(analysis: Any, *, hover: Any = None, height: int = 420) -> go
             marker=dict(size=11, color=PALETTE["excluded"], symbol="circle-open", line=dict(width=2)),
             text=[point_text(i) for i in np.flatnonzero(excl)], hovertemplate="%{text}<extra></extra>",
         ))
-    # signals: the point where a rule triggers gets a filled red diamond and the rule ids;
-    # the other points of the pattern get a red ring (no text, so long runs stay readable)
-    triggers: dict[int, list[str]] = {}
-    for v in ch.violations:
-        if 0 <= v.index < n and not excl[v.index]:
-            triggers.setdefault(int(v.index), [])
-            if v.rule not in triggers[int(v.index)]:
-                triggers[int(v.index)].append(v.rule)
-    pattern = np.flatnonzero(flagged)
-    pattern = pattern[~np.isin(pattern, list(triggers))]
-    if pattern.size:
-        fig.add_trace(go.Scatter(
-            x=xs[pattern], y=pts[pattern], mode="markers", name="part of a signal pattern",
-            marker=dict(size=10, color="rgba(0,0,0,0)", symbol="circle-open",
-                        line=dict(color=PALETTE["signal"], width=1.6)),
-            customdata=[point_text(i) for i in pattern], hovertemplate="%{customdata}<extra></extra>",
-        ))
-    if triggers:
-        idx = np.array(sorted(triggers))
-        fig.add_trace(go.Scatter(
-            x=xs[idx], y=pts[idx], mode="markers+text", name="signal (run rule)",
-            marker=dict(size=11, color=PALETTE["signal"], symbol="diamond",
-                        line=dict(color="white", width=1)),
-            text=signal_labels(triggers, n, pts), textposition="top center",
-            textfont=dict(size=11, color=PALETTE["signal"]),
-            customdata=[point_text(i) for i in idx], hovertemplate="%{customdata}<extra></extra>",
-        ))
+    _signal_traces(fig, ch, xs, pts, excl, flagged, n, point_text)
     phase = "Phase II (frozen baseline)" if ch.phase == "II" else "Phase I"
     title = f"{name} chart in measurement units · {phase}"
     if analysis.transform.name != "none":
