@@ -210,6 +210,7 @@ def _fig_chart(view: "_View", width_mm: float) -> bytes:
     """Control chart in units and its dispersion chart, marked as in the app: signal
     (the point where a run rule triggers) a filled red diamond with the rule ids, the other
     points of the pattern a red ring, excluded points a large grey ring."""
+    from .._drawing import envelope_indices
     from ..plots import signal_labels
 
     col = _colours()
@@ -221,7 +222,9 @@ def _fig_chart(view: "_View", width_mm: float) -> bytes:
     dense = x.size > 150
     ms, lw = (1.2, 0.35) if dense else (2.5, 0.7)
     big = 4.5 if dense else 6.5
-    ax.plot(x, y, "-o", markersize=ms, linewidth=lw, color=col["raw"], label=cs["label"])
+    keep = envelope_indices(y)  # a long line through each run's extremes (every signal still marked)
+    ax.plot(x[keep], y[keep], "-o" if keep.size == x.size else "-", markersize=ms, linewidth=lw, color=col["raw"],
+            label=cs["label"])
     _limit_line(ax, x, cs["center"], "centre", col["center"], _LINE["center"])
     _limit_line(ax, x, cs["ucl"], "UCL", col["limit"], _LINE["limit"])
     _limit_line(ax, x, cs["lcl"], "LCL", col["limit"], _LINE["limit"])
@@ -253,7 +256,9 @@ def _fig_chart(view: "_View", width_mm: float) -> bytes:
     if d["values"] is not None:
         dv = np.asarray(d["values"], dtype=float)
         xd = np.arange(1, dv.size + 1)
-        ax2.plot(xd, dv, "-o", markersize=ms, linewidth=lw, color=col["transformed"], label=d["label"])
+        kd = envelope_indices(dv)
+        ax2.plot(xd[kd], dv[kd], "-o" if kd.size == xd.size else "-", markersize=ms, linewidth=lw,
+                 color=col["transformed"], label=d["label"])
         _limit_line(ax2, xd, d["center"], "centre", col["center"], _LINE["center"])
         _limit_line(ax2, xd, d["ucl"], "UCL", col["limit"], _LINE["limit"])
         _limit_line(ax2, xd, d["lcl"], "LCL", col["limit"], _LINE["limit"], skip_zero=True)
