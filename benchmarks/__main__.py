@@ -94,7 +94,7 @@ def bench_core(sizes: list[int], naive_max: int) -> None:
 
 def _best_wall_cpu(fn, repeat: int) -> tuple[float, float, object]:
     """Best wall and best CPU seconds of ``repeat`` runs (analyze may use a second thread
-    from 50,000 values, so the two differ: CPU counts both threads)."""
+    from 20,000 values (qcnorm.analysis.fitlane.PARALLEL_MIN_N), so the two differ: CPU counts both threads)."""
     bw, bc, out = float("inf"), float("inf"), None
     for _ in range(repeat):
         w0, c0 = time.perf_counter(), time.process_time()
@@ -105,7 +105,7 @@ def _best_wall_cpu(fn, repeat: int) -> tuple[float, float, object]:
 
 def bench_analyze(sizes: list[int], naive_max: int) -> None:
     print("\n== analyze(transform='auto', usl=...) vs the naive scipy route (generic fits)")
-    print("   wall = elapsed seconds (what the user waits; analyze may use 2 threads from 50,000 values),")
+    print("   wall = elapsed seconds (what the user waits; analyze may use 2 threads from 20,000 values),")
     print("   CPU = both threads' CPU seconds; the scipy route is one thread, wall shown; ratio = wall / wall")
     print(f"{'n':>9} {'wall s':>8} {'CPU s':>8} {'scipy s':>9} {'ratio':>7}   Weibull shape qcnorm / scipy"
           "   lognormal σ qcnorm / scipy")
