@@ -325,3 +325,30 @@ def test_baseline_from_censored_fit_charts_new_zero_readings():
     a2 = analyze(new, usl=8.0, baseline=base)
     assert a2.phase == "II" and np.isfinite(a2.transformed).all()
     assert a2.transformed[0] == pytest.approx(a1.transform.transform([base.transform_params["zero_value"]])[0])
+
+
+def test_long_run_says_whether_the_count_of_signals_is_chance():
+    """On 100,000 stable normal values rule 1 alone gives about 270 chance signals; the
+    warning then says the count by itself does not show instability. A shifted stretch
+    gives more than the Poisson 99th percentile (scipy.stats.poisson as the reference) and
+    the warning says so. The verdict itself stays as the rules give it."""
+    from scipy.stats import poisson
+
+    rng = np.random.default_rng(21)
+    x = rng.normal(50.0, 2.0, 100_000)
+    a = analyze(x, transform="none")
+    exp = a.chart.false_alarm.expected_count()
+    k = len(a.chart.violations) + len(a.chart.dispersion.violations)
+    assert not a.chart.in_control and k <= poisson.ppf(0.99, exp)
+    note = next(w for w in a.warnings if "signals of special causes" in w)
+    assert f"about {exp:,.0f} signals are expected from chance alone" in note
+    assert "does not show instability" in note
+    y = x.copy()
+    y[:3_000] += 8.0  # a 4-sigma shift over 3,000 values
+    b = analyze(y, transform="none")
+    kb = len(b.chart.violations) + len(b.chart.dispersion.violations)
+    assert kb > poisson.ppf(0.99, b.chart.false_alarm.expected_count())
+    note_b = next(w for w in b.warnings if "signals of special causes" in w)
+    assert "more than the roughly" in note_b and "does not show instability" not in note_b
+    small = analyze(rng.normal(50.0, 2.0, 300), transform="none")
+    assert not any("expected from chance alone" in w for w in small.warnings)

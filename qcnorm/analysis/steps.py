@@ -149,6 +149,7 @@ def _chart_step(x, y, tr: Transform, subgroups, chart, excl, rules, baseline, un
             f"The chart shows {k} signal{'s' if k != 1 else ''} of special causes: the process is not "
             "in statistical control, so capability figures are not meaningful until the causes are "
             "found and removed (exclude them with a reason, or stabilise the process)."
+            + _chance_count_note(ch, k)
         )
     if n < SMALL_N:
         warnings.append(
@@ -156,6 +157,25 @@ def _chart_step(x, y, tr: Transform, subgroups, chart, excl, rules, baseline, un
             f"aim for at least {SMALL_N} (better 100) before judging capability."
         )
     return ch, lu
+
+
+def _chance_count_note(ch: ControlChart, k: int) -> str:
+    """On a long run, whether the count of signals is about what chance alone gives: k at
+    most the 99th percentile of a Poisson count with the stated expectation
+    (``false_alarm.expected_count``). The verdict stays as the rules give it."""
+    fa = ch.false_alarm
+    expected = None if fa is None else fa.expected_count()
+    if expected is None or expected < 2.0:
+        return ""
+    from scipy.stats import poisson
+
+    what = "values" if ch.chart == "individuals" else "subgroups"
+    if k <= poisson.ppf(0.99, expected):
+        return (f" On {fa.n:,} {what} about {expected:,.0f} signals are expected from chance alone, so this "
+                "count by itself does not show instability: look for causes at the largest signals first, "
+                "and judge with the process owner whether the run is in control.")
+    return (f" That is more than the roughly {expected:,.0f} signals expected from chance alone on {fa.n:,} "
+            f"{what}.")
 
 
 def _capability_step(x, y, tr: Transform, ch: ControlChart, phase: str, subgroups, excl, rules,
