@@ -10,7 +10,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .errors import DataError
-from .transforms import Transform, censored_normal_fit, substitute_zero_readings
+from .transforms import Transform, substitute_zero_readings
+from .transforms.zeros import censored_fit_on_scale, place_zero_readings
 
 if TYPE_CHECKING:
     from .selection import CandidateFit
@@ -26,7 +27,13 @@ def _evaluate(family: str, t: Transform, xs: np.ndarray, ad_out: dict | None = N
     from .normality import _vdot
 
     n = xs.size
-    xt = substitute_zero_readings(t, xs)  # log/Box–Cox fitted with zero readings: their stand-in
+    if zero_limit is not None and t.family != "none" and getattr(t, "zero_value_", None) is None:
+        # Johnson, Yeo–Johnson: fitted with the zeros as they are; their censored fit now gives
+        # the zeros the stand-in value log and Box–Cox get from theirs, before A² and skewness.
+        # ("none" keeps each 0 as recorded: on the data's own scale it is already at the edge of
+        # (0, c], no farther from any value there than the rounding every other reading carries.)
+        place_zero_readings(t, xs, zero_limit)
+    xt = substitute_zero_readings(t, xs)  # readings of 0 fitted as censored: their stand-in
     # The fit has already checked that every value lies in the transform's domain, so
     # the public transform()/log_jacobian() checks are skipped here (same numbers).
     shared = getattr(t, "_shared_forward_jac", None)
@@ -92,17 +99,6 @@ def _censored_loglik(t: Transform, xs: np.ndarray, c: float) -> float:
     """
     fitted = getattr(t, "censored_loglik_", None)
     if getattr(t, "zero_value_", None) is not None and fitted is not None:
-        return float(fitted)  # the log/Box–Cox fit maximised exactly this (at the λ used)
-    zeros = xs == 0.0
-    k = int(zeros.sum())
-    ex = xs[~zeros]
-    with np.errstate(all="ignore"):
-        y = t._forward(ex)
-        jac = float(t._log_jac(ex).sum())
-        b = float(t._forward(np.array([c]))[0])
-        a = (float(t._forward(np.array([0.0]))[0]) if bool(t.domain.contains(np.array([0.0]))[0])
-             else float(t.image[0]))
-    from .normality import _vdot
-
-    f = censored_normal_fit(ex.size, float(y.sum()), _vdot(y, y), k, a, b)
+        return float(fitted)  # the log/Box–Cox fit (at the λ used) or place_zero_readings maximised exactly this
+    f, _, _, jac = censored_fit_on_scale(t, xs, c)
     return f.loglik + jac

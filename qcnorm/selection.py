@@ -392,8 +392,11 @@ def choose_transform(
     carry a probability, not a density, so no Jacobian. Log and Box–Cox fit λ, μ, σ by this
     likelihood (T(0) = −∞, or −1/λ for λ > 0); the others keep their usual fit and are scored
     on it with μ, σ re-maximised. All candidates thus describe the same observations the same
-    way. For the Anderson–Darling check and everything downstream, log/Box–Cox place each 0
-    reading at ``zero_value_`` (the conditional mean on the transformed scale).
+    way. For the Anderson–Darling check and everything downstream, every candidate but "none"
+    places each 0 reading at ``zero_value_``: the value whose transform is the conditional
+    mean E[T(X) | 0 < X ≤ c] under its censored normal fit (log/Box–Cox from their own fit,
+    Johnson/Yeo–Johnson from the μ̂, σ̂ above; ``zeros.place_zero_readings``). "none" keeps
+    each 0 as recorded: on the data's own scale 0 is already at the edge of (0, c].
 
     References
     ----------

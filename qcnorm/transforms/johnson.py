@@ -12,6 +12,7 @@ from scipy import special
 
 from ..errors import ConfigError, DataError
 from .base import MIN_N, Domain, Transform
+from .zeros import _restore_zero_value, _zero_params, _zero_words
 
 #: Johnson: |mn/p² − 1| below this is classified as SL (lognormal).
 SL_TOLERANCE = 0.01
@@ -159,7 +160,9 @@ class Johnson(Transform):
     ----------
     family_ ("su"/"sb"/"sl"), gamma_, eta_, epsilon_, lambda_, z_ (the chosen z),
     ratio_ (mn/p² at z_), ad_statistic_ (A² of the transformed search sample),
-    n_search_ (size of that sample), n_candidates_ (grid points that gave a valid fit).
+    n_search_ (size of that sample), n_candidates_ (grid points that gave a valid fit); with
+    readings of 0 scored as censored by choose_transform (``zeros.place_zero_readings``):
+    n_zero_, zero_limit_, zero_value_, censored_loglik_, censored_mu_, censored_sigma_.
 
     Notes
     -----
@@ -212,6 +215,7 @@ class Johnson(Transform):
         from ..normality import _log_phi_pair_sorted, anderson_darling_a2
 
         n = x.size
+        self.zero_value_ = None  # readings of 0 get a stand-in only when scored as censored (place_zero_readings)
         zmax = float(special.ndtri(1.0 - 0.5 / n)) / 3.0
         zs = Z_GRID[Z_GRID <= zmax + 1e-12]
         if zs.size == 0:  # pragma: no cover - MIN_N guarantees n ≥ 20
@@ -302,7 +306,8 @@ class Johnson(Transform):
         return Domain(self.epsilon_, math.inf)
 
     def _params(self):
-        return {"gamma": self.gamma_, "eta": self.eta_, "epsilon": self.epsilon_, "lambda": self.lambda_}
+        return {"gamma": self.gamma_, "eta": self.eta_, "epsilon": self.epsilon_, "lambda": self.lambda_,
+                **_zero_params(self)}
 
     @classmethod
     def fitted_names(cls) -> tuple[str, ...]:
@@ -315,6 +320,7 @@ class Johnson(Transform):
             raise ConfigError(f"Stored Johnson parameters need η > 0 and λ > 0; got {vals!r}.")
         t = cls(family=fam)
         t._set(fam, vals["gamma"], vals["eta"], vals["epsilon"], vals["lambda"])
+        _restore_zero_value(t, params)
         return t
 
     @property
@@ -337,4 +343,4 @@ class Johnson(Transform):
         txt += "" if self.family_ == "sl" else f", λ = {self.lambda_:.4g}"
         if hasattr(self, "z_"):
             txt += f" (percentile fit at z = {self.z_:.2f})"
-        return txt + "."
+        return txt + "." + (_zero_words(self) + "." if _zero_words(self) else "")

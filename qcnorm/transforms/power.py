@@ -347,7 +347,9 @@ class BoxCox(Transform):
 class YeoJohnson(Transform):
     """Yeo–Johnson power transform (any real data), λ by maximum likelihood.
 
-    Attributes: lambda_, lambda_ci_ (95 % likelihood-ratio interval), loglik_.
+    Attributes: lambda_, lambda_ci_ (95 % likelihood-ratio interval), loglik_; with readings
+    of 0 scored as censored by choose_transform (``zeros.place_zero_readings``): n_zero_,
+    zero_limit_, zero_value_, censored_loglik_, censored_mu_, censored_sigma_.
 
     Notes
     -----
@@ -369,6 +371,7 @@ class YeoJohnson(Transform):
     param_keys = ("lambda",)
 
     def _fit(self, x: np.ndarray) -> None:
+        self.zero_value_ = None  # readings of 0 get a stand-in only when scored as censored (place_zero_readings)
         if x.min() >= 0:  # then y = Box–Cox of x + 1: same profile, cheaper per λ
             lp = _shared_log(self, x, "log1p")  # speed: ln(1 + x) shared with the scoring
             fit = _fit_lambda(_BoxCoxProfile, np.log1p(x) if lp is None else lp, "Yeo–Johnson transform")
@@ -416,13 +419,14 @@ class YeoJohnson(Transform):
         return (lo, hi)
 
     def _params(self):
-        return {"lambda": self.lambda_, **_lambda_estimate_params(self)}
+        return {"lambda": self.lambda_, **_lambda_estimate_params(self), **_zero_params(self)}
 
     @classmethod
     def _from_params(cls, name: str, vals: dict[str, float], params: Mapping[str, Any]) -> YeoJohnson:
         t = cls()
         t.lambda_, t.lambda_ci_ = vals["lambda"], None
         _restore_estimate(t, params)
+        _restore_zero_value(t, params)
         return t
 
     @property
@@ -433,5 +437,7 @@ class YeoJohnson(Transform):
         self._check_fitted()
         ci = getattr(self, "lambda_ci_", None)
         if ci is not None and all(map(math.isfinite, ci)):
-            return f"Yeo–Johnson power transform, {_lambda_words(self.lambda_, ci)}."
-        return f"Yeo–Johnson power transform, λ = {self.lambda_:.3g}."
+            txt = f"Yeo–Johnson power transform, {_lambda_words(self.lambda_, ci)}."
+        else:
+            txt = f"Yeo–Johnson power transform, λ = {self.lambda_:.3g}."
+        return txt + (_zero_words(self) + "." if _zero_words(self) else "")

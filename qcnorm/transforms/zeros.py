@@ -2,8 +2,10 @@
 
 A log or Box–Cox transform fitted with ``zero_limit`` = c takes a reading of exactly 0 as
 a value known only to lie in (0, c] (a small value rounded down to 0) and fits it by the
-censored likelihood; ``substitute_zero_readings`` then gives each such reading the one
-value that stands for it on the transformed scale. Whether the zeros of a sample look like
+censored likelihood; a Johnson or Yeo–Johnson transform keeps its own fit and gets the
+censored normal fit on its scale afterwards (``place_zero_readings``).
+``substitute_zero_readings`` then gives each such reading the one value that stands for
+it on the transformed scale. Whether the zeros of a sample look like
 rounded small values is decided in ``qcnorm.selection.gauge_zero_step``.
 """
 
@@ -217,6 +219,47 @@ def _set_zero_value(t: Transform, pos: np.ndarray, lam: float) -> None:
         t.zero_value_ = 0.5 * c
 
 
+def censored_fit_on_scale(t: Transform, xs: np.ndarray, c: float) -> tuple[CensoredNormalFit, float, float, float]:
+    """The censored normal fit of a FITTED transform's scale, its zeros only known to lie in (0, c].
+
+    Returns (fit, a, b, Σ ln T'(x) over the exact values): a = T(0) when 0 is in the domain,
+    else the image's lower end; b = T(c). ``fit.loglik`` + that sum is the log-likelihood of
+    the original data (see ``qcnorm._scoring._censored_loglik``).
+    """
+    zeros = xs == 0.0
+    k = int(zeros.sum())
+    ex = xs[~zeros]
+    with np.errstate(all="ignore"):
+        y = t._forward(ex)
+        jac = float(t._log_jac(ex).sum())
+        b = float(t._forward(np.array([c]))[0])
+        a = (float(t._forward(np.array([0.0]))[0]) if bool(t.domain.contains(np.array([0.0]))[0])
+             else float(t.image[0]))
+    f = censored_normal_fit(ex.size, float(y.sum()), _vdot(y, y), k, a, b)
+    return f, a, b, jac
+
+
+def place_zero_readings(t: Transform, xs: np.ndarray, c: float) -> None:
+    """Give a transform fitted WITH its 0 readings (Johnson, Yeo–Johnson) the stand-in value
+    that log and Box–Cox get from their censored fit (``_set_zero_value``).
+
+    Its parameters are kept; μ̂, σ̂ on its scale come from the censored likelihood (zeros in
+    (0, c]), and ``zero_value_`` = T⁻¹(E[T(X) | 0 < X ≤ c]) (the truncated-normal mean on the
+    transformed scale, mapped back and kept inside (0, c]). Sets ``n_zero_``, ``zero_limit_``,
+    ``zero_value_``, ``censored_loglik_``, ``censored_mu_``, ``censored_sigma_``.
+    """
+    f, a, b, jac = censored_fit_on_scale(t, xs, c)
+    t.n_zero_, t.zero_limit_ = int((xs == 0.0).sum()), float(c)
+    t.censored_loglik_ = f.loglik + jac
+    t.censored_mu_, t.censored_sigma_ = f.mu, f.sigma
+    zv = math.nan
+    if math.isfinite(f.mu) and math.isfinite(f.sigma) and f.sigma > 0:
+        with np.errstate(all="ignore"):
+            zv = float(t._inverse_inside(np.array([f.conditional_mean(a, b)]))[0])
+    zv = min(zv, t.zero_limit_)
+    t.zero_value_ = zv if zv > 0 else 0.5 * t.zero_limit_  # at the image's end (or no fit): half the limit
+
+
 def _zero_words(t: Transform) -> str:
     if getattr(t, "zero_value_", None) is None:
         return ""
@@ -233,8 +276,10 @@ def substitute_zero_readings(t: Transform, x: Any) -> np.ndarray:
     """``x`` with readings of exactly 0 replaced by the fitted transform's ``zero_value_``.
 
     A log or Box–Cox transform fitted with ``zero_limit`` treats a 0 reading as a value in
-    (0, zero_limit]; this gives each such reading the one value that represents it on the
-    transformed scale. Any other transform returns ``x`` unchanged (as a float array).
+    (0, zero_limit]; so does a Johnson or Yeo–Johnson transform scored with its zeros censored
+    (``place_zero_readings``), or any of them rebuilt from a baseline that stored the value.
+    This gives each such reading the one value that represents it on the transformed scale.
+    Any other transform returns ``x`` unchanged (as a float array).
     """
     arr = np.asarray(x, dtype=np.float64)
     zv = getattr(t, "zero_value_", None)
