@@ -215,7 +215,7 @@ class Johnson(Transform):
         from ..normality import _log_phi_pair_sorted, anderson_darling_a2
 
         n = x.size
-        self.zero_value_ = None  # readings of 0 get a stand-in only when scored as censored (place_zero_readings)
+        self.zero_value_ = None  # a stand-in for 0 readings only when scored censored (place_zero_readings)
         zmax = float(special.ndtri(1.0 - 0.5 / n)) / 3.0
         zs = Z_GRID[Z_GRID <= zmax + 1e-12]
         if zs.size == 0:  # pragma: no cover - MIN_N guarantees n ≥ 20

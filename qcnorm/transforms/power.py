@@ -371,7 +371,7 @@ class YeoJohnson(Transform):
     param_keys = ("lambda",)
 
     def _fit(self, x: np.ndarray) -> None:
-        self.zero_value_ = None  # readings of 0 get a stand-in only when scored as censored (place_zero_readings)
+        self.zero_value_ = None  # a stand-in for 0 readings only when scored censored (place_zero_readings)
         if x.min() >= 0:  # then y = Box–Cox of x + 1: same profile, cheaper per λ
             lp = _shared_log(self, x, "log1p")  # speed: ln(1 + x) shared with the scoring
             fit = _fit_lambda(_BoxCoxProfile, np.log1p(x) if lp is None else lp, "Yeo–Johnson transform")
