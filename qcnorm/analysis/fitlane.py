@@ -40,7 +40,12 @@ PARALLEL_MIN_N = 20_000
 
 #: Families whose Anderson–Darling result comes from the transform step.
 _SHARED_AD = ("normal", "lognormal")
-_OWN_AD = tuple(nm for nm in _FAMILIES if nm not in _SHARED_AD)
+#: The others, posted longest first (a scheduling order only: the ranking follows the
+#: family table). Gamma's A² needs the incomplete gamma function over every value, the
+#: slowest single pass; ending on short tasks keeps both threads busy to the end
+#: (measured at 10^6: about 50 ms less wall time than the table's order).
+_OWN_AD = ("gamma", "weibull", "lognormal3", "exponential")
+assert set(_OWN_AD) | set(_SHARED_AD) == set(_FAMILIES)
 
 
 def threads_allowed(n: int) -> bool:
