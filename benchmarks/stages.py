@@ -33,7 +33,7 @@ _STEPS = (
     ("sort (once, shared)", "~", "<method 'sort' of 'numpy.ndarray' objects>"),
     ("transform: choose_transform", "qcnorm/selection.py", "choose_transform"),
     ("· candidates' fits", "qcnorm/transforms/base.py", "fit"),
-    ("· candidates' scores (map, Jacobian, A²)", "qcnorm/selection.py", "_evaluate"),
+    ("· candidates' scores (map, Jacobian, A²)", "qcnorm/_scoring.py", "_evaluate"),
     ("normality reports", "qcnorm/normality/report.py", "normality_report"),
     ("control chart", "qcnorm/control/charts.py", "control_chart"),
     ("limits in units", "qcnorm/control/units.py", "limits_in_units"),
