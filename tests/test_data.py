@@ -674,3 +674,30 @@ def test_cleaned_data_round_trips_through_export():
 
 def test_every_error_is_a_qcnorm_error():
     assert issubclass(ReadError, QcnormError) and issubclass(ReadError, ValueError)
+
+
+def test_parsed_once_reads_as_the_source_does(tmp_path):
+    """parse_file + read_table / list_characteristics / read_measurements give exactly what
+    the same readers give on the file itself (the app parses an upload once); the values
+    are checked against pandas' own reading of the file as a second opinion."""
+    import pandas as pd
+
+    from qcnorm.data import list_characteristics, parse_file, read_measurements, read_table
+
+    rng = np.random.default_rng(3)
+    p = tmp_path / "two.csv"
+    df = pd.DataFrame({"Batch": [f"B{i // 5}" for i in range(60)],
+                       "Bore (µm)": rng.lognormal(0.5, 0.3, 60).round(3),
+                       "Flatness (mm)": rng.gamma(2.0, 0.01, 60).round(4)})
+    df.loc[7, "Bore (µm)"] = np.nan
+    df.to_csv(p, index=False)
+    pf = parse_file(p)
+    assert list_characteristics(pf) == list_characteristics(p)
+    pd.testing.assert_frame_equal(read_table(pf).frame, read_table(p).frame)
+    for col in ("Bore", "Flatness"):
+        a, b = read_measurements(pf, column=col, subgroup="Batch"), read_measurements(p, column=col, subgroup="Batch")
+        np.testing.assert_array_equal(a.values, b.values)
+        np.testing.assert_array_equal(a.subgroups, b.subgroups)
+        assert a.report == b.report and a.column == b.column and a.units == b.units
+        ref = pd.read_csv(p)[[c for c in df.columns if c.startswith(col)][0]].dropna().to_numpy()
+        np.testing.assert_array_equal(a.values, ref)

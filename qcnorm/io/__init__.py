@@ -101,7 +101,7 @@ One module per step, in the order a file passes through them::
     layout.py       wide / long / single; column and label lookup
     ingest.py       the row-level ingest report (used, excluded, censored rows)
     results.py      Measurements, CharacteristicInfo, RawTable
-    readers.py      read_measurements, read_all, list_characteristics, read_table
+    readers.py      read_measurements, read_all, list_characteristics, read_table, parse_file
     export.py       export_csv, export_xlsx
     hints.py        the stable hint codes carried by ReadError (what to do next)
 """
@@ -111,12 +111,14 @@ from __future__ import annotations
 from .export import export_csv, export_xlsx
 from .ingest import CensoredValue, ExcludedRow, IngestReport
 from .names import split_units
-from .readers import list_characteristics, read_all, read_measurements, read_table
+from .readers import ParsedFile, list_characteristics, parse_file, read_all, read_measurements, read_table
 from .results import CharacteristicInfo, Measurements, RawTable
 
 __all__ = [
     "read_measurements",
     "read_all",
+    "parse_file",
+    "ParsedFile",
     "split_units",
     "list_characteristics",
     "read_table",

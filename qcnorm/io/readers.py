@@ -35,8 +35,9 @@ def read_measurements(
 
     Parameters
     ----------
-    source : path, bytes, file-like, str or DataFrame
+    source : path, bytes, file-like, str, DataFrame or ParsedFile
         A ``str`` holding a newline or tab is pasted text; any other ``str`` is a path.
+        A :class:`ParsedFile` (:func:`parse_file`) is read as it was parsed.
     column : str or int, optional
         The measurement column, by name (case- and space-insensitive, units may be
         left out: "diameter" finds "Diameter (mm)") or by 0-based index. Needed when
@@ -88,8 +89,7 @@ def read_measurements(
     if _parsed is not None:  # read_all(): the table was parsed once for every characteristic
         table, layout = _parsed
     else:
-        table = _table_from(source, sheet, decimal, max_bytes, max_rows)
-        layout = _detect_layout(table)
+        table, layout = _parse(source, sheet, decimal, max_bytes, max_rows)
     notes = list(table.notes)
     warns = list(table.warnings)
     if layout.kind == "long":
@@ -135,6 +135,41 @@ def read_measurements(
         report=report,
         settings=settings,
     )
+
+
+@dataclasses.dataclass(frozen=True, slots=True, eq=False)
+class ParsedFile:
+    """A file parsed once (:func:`parse_file`), to be read many times: give it as the
+    ``source`` of :func:`read_table`, :func:`list_characteristics` or
+    :func:`read_measurements`. The options that shape the parse (sheet, decimal,
+    max_bytes, max_rows) are those given to :func:`parse_file`."""
+
+    table: Any
+    layout: Any
+
+    @property
+    def name(self) -> str:
+        return str(self.table.name)
+
+
+def parse_file(source: Any, *, sheet: str | int | None = None, decimal: str | None = None,
+               max_bytes: int = 100_000_000, max_rows: int = 2_000_000) -> ParsedFile:
+    """Parse a source once (encoding, delimiter, header, number format, layout) for several
+    reads; the app reads the table, the list of characteristics and the chosen one's
+    measurements from one parse. Raises ReadError as the readers do."""
+    if decimal is not None:
+        check_choice(decimal, (".", ","), "decimal", "parse_file")
+    _check_limits(max_bytes, max_rows, "parse_file")
+    table = _table_from(source, sheet, decimal, max_bytes, max_rows)
+    return ParsedFile(table, _detect_layout(table))
+
+
+def _parse(source: Any, sheet, decimal, max_bytes, max_rows) -> tuple[Any, Any]:
+    """(table, layout) of a source, or of a ParsedFile as it was parsed."""
+    if isinstance(source, ParsedFile):
+        return source.table, source.layout
+    table = _table_from(source, sheet, decimal, max_bytes, max_rows)
+    return table, _detect_layout(table)
 
 
 def _check_limits(max_bytes: Any, max_rows: Any, func: str) -> None:
@@ -208,8 +243,7 @@ def list_characteristics(source: Any, *, sheet: str | int | None = None,
         Empty when the file holds no numeric column.
     """
     _check_limits(max_bytes, max_rows, "list_characteristics")
-    table = _table_from(source, sheet, None, max_bytes, max_rows)
-    layout = _detect_layout(table)
+    table, layout = _parse(source, sheet, None, max_bytes, max_rows)
     out: list[CharacteristicInfo] = []
     if layout.kind == "long":
         groups: dict[str, list[tuple[int, list[Any]]]] = {}
@@ -235,8 +269,7 @@ def read_table(source: Any, *, sheet: str | int | None = None, max_bytes: int = 
                max_rows: int = 2_000_000) -> RawTable:
     """The parsed table as text cells, with how it was read (for showing columns in a UI)."""
     _check_limits(max_bytes, max_rows, "read_table")
-    table = _table_from(source, sheet, None, max_bytes, max_rows)
-    layout = _detect_layout(table)
+    table, layout = _parse(source, sheet, None, max_bytes, max_rows)
     width = len(table.names)
     data = [[_cell_text(table.cell(cells, j)) for j in range(width)] for _, cells in table.body]
     frame = pd.DataFrame(data, columns=pd.Index(table.names, dtype=object), dtype=object)
