@@ -54,6 +54,23 @@ def _ref_zero_placement(x, z_of, params):
     return mu, sd, mean, -float(r.fun)
 
 
+def _check_placement(a, x, z_of):
+    """The checks every placement must pass: zero_limit is half the gauge step and
+    zero_value lies in (0, c]; μ̂, σ̂ of qcnorm's censored fit equal the direct scipy
+    maximisation; every 0 reading sits at the truncated-normal mean (scipy.stats.truncnorm)
+    on the candidate's scale. Returns the reference (μ̂, σ̂, mean, normal log-likelihood)."""
+    t, zeros = a.transform, x == 0
+    p = t.params_
+    assert p["zero_limit"] == pytest.approx(C) and 0 < p["zero_value"] <= C
+    ref = _ref_zero_placement(x, z_of, p)
+    mu, sd, mean, _ = ref
+    assert t.censored_mu_ == pytest.approx(mu, abs=1e-6)
+    assert t.censored_sigma_ == pytest.approx(sd, rel=1e-6)
+    assert np.all(a.transformed[zeros] == a.transformed[zeros][0])
+    assert a.transformed[zeros][0] == pytest.approx(mean, abs=1e-6)
+    return ref
+
+
 def test_seed4_johnson_zeros_sit_at_the_conditional_mean_and_raise_no_signal():
     x = _gauge_gamma(4)
     zeros = x == 0
@@ -62,14 +79,7 @@ def test_seed4_johnson_zeros_sit_at_the_conditional_mean_and_raise_no_signal():
     t = a.transform
     assert t.name == "johnson_sb"
     p = t.params_
-    assert p["zero_limit"] == pytest.approx(C) and 0 < p["zero_value"] <= C
-    mu, sd, mean, ll_normal = _ref_zero_placement(x, _johnson_sb_z, p)
-    # μ̂, σ̂ of qcnorm's censored fit against the direct scipy maximisation
-    assert t.censored_mu_ == pytest.approx(mu, abs=1e-6)
-    assert t.censored_sigma_ == pytest.approx(sd, rel=1e-6)
-    # every 0 reading at the truncated-normal mean (scipy.stats.truncnorm) on the Johnson scale
-    assert np.all(a.transformed[zeros] == a.transformed[zeros][0])
-    assert a.transformed[zeros][0] == pytest.approx(mean, abs=1e-6)
+    _mu, _sd, _mean, ll_normal = _check_placement(a, x, _johnson_sb_z)
     assert a.transformed[zeros][0] == pytest.approx(-2.53, abs=0.02)  # was −2.91 at T(0), below the LCL
     # the AIC is still the censored likelihood of the original data: scipy's maximum plus the
     # Jacobian of the exact values, ln f_SB(x) − ln φ(z) (scipy.stats.johnsonsb, scipy.stats.norm)
@@ -119,11 +129,7 @@ def test_forced_yeojohnson_places_gauge_zeros_at_the_conditional_mean():
     t = a.transform
     assert t.name == "yeojohnson"
     p = t.params_
-    assert p["zero_limit"] == pytest.approx(C) and 0 < p["zero_value"] <= C
-    mu, sd, mean, _ = _ref_zero_placement(x, _yeojohnson_z, p)
-    assert t.censored_mu_ == pytest.approx(mu, abs=1e-6)
-    assert t.censored_sigma_ == pytest.approx(sd, rel=1e-6)
-    assert a.transformed[zeros] == pytest.approx([mean, mean], abs=1e-6)
+    _check_placement(a, x, _yeojohnson_z)
     # the other readings are scipy's Yeo–Johnson values, untouched
     assert a.transformed[~zeros] == pytest.approx(_yeojohnson_z(x[~zeros], p), rel=1e-12)
     assert a.normality_transformed.ad_statistic == pytest.approx(normal_ad(a.transformed)[0], rel=1e-9)
