@@ -143,3 +143,12 @@ def test_a_failing_main_lane_stops_the_thread(monkeypatch):
         if t.name.startswith("qcnorm-fits") and t.name not in before:
             t.join(timeout=30)
             assert not t.is_alive()
+
+
+def test_every_family_is_posted_exactly_once():
+    """The lane's two groups cover the family table exactly (a new family must be added to
+    the lane's scheduling order, or it would never be fitted in analyze())."""
+    from qcnorm.distributions.registry import _FAMILIES
+
+    posted = fitlane._OWN_AD + fitlane._SHARED_AD
+    assert sorted(posted) == sorted(_FAMILIES) and len(set(posted)) == len(posted)
